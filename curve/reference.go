@@ -1,0 +1,97 @@
+package curve
+
+import "time"
+
+// FormatVersion is the version of the reference file written by Save. Load
+// refuses files of a newer version.
+const FormatVersion = 1
+
+// Caution is written into every reference, table, chart and report.
+const Caution = "This reference describes the sample it was built from. It is not a " +
+	"diagnosis: clinical decisions follow local guidelines and a qualified clinician."
+
+// Reference is a fitted growth reference: everything needed to score a
+// measurement without the data it was built from. It is the content of the
+// reference file (JSON, see Save and Load).
+type Reference struct {
+	Format    string    `json:"format"`  // always "growband-reference"
+	Version   int       `json:"version"` // FormatVersion at writing
+	Measure   string    `json:"measure"` // e.g. "weight"
+	Unit      string    `json:"unit"`    // e.g. "kg"
+	AgeUnit   string    `json:"age_unit"`
+	AgeScale  AgeScale  `json:"age_scale"`
+	Degree    int       `json:"degree"`
+	Created   time.Time `json:"created"`
+	InputHash string    `json:"input_hash"` // hex SHA-256 of the input rows used
+	Caution   string    `json:"caution"`
+	Strata    []Stratum `json:"strata"`
+}
+
+// AgeScale is the age transformation T used inside the basis: "identity",
+// "log" (log(age + Shift)) or "power" (age^Power).
+type AgeScale struct {
+	Kind  string  `json:"kind"`
+	Shift float64 `json:"shift,omitempty"`
+	Power float64 `json:"power,omitempty"`
+}
+
+// Stratum is the fit for one group (for example one sex).
+type Stratum struct {
+	Name   string  `json:"name"`   // stratum label; "" when the data have none
+	N      int     `json:"n"`      // rows used
+	AgeMin float64 `json:"age_min"` // fitted range in age units
+	AgeMax float64 `json:"age_max"`
+	// Knots is the full clamped knot vector on the transformed age scale.
+	Knots []float64 `json:"knots"`
+	// Taus is the sorted tau grid; Coef[k] holds the B-spline coefficients of
+	// the curve at Taus[k], ordered so Coef[k] <= Coef[k+1] componentwise.
+	Taus []float64   `json:"taus"`
+	Coef [][]float64 `json:"coef"`
+	// Chart lists the chart centiles as tau values (each also in Taus).
+	Chart      []float64  `json:"chart"`
+	Smoothness Smoothness `json:"smoothness"`
+	Flags      []Flag     `json:"flags,omitempty"`
+	// Bands holds bootstrap pointwise intervals per chart centile; nil when no
+	// bootstrap was asked for.
+	Bands []Band `json:"bands,omitempty"`
+}
+
+// Smoothness records how the curves' flexibility was chosen.
+type Smoothness struct {
+	InteriorKnots int     `json:"interior_knots"`
+	Lambda        float64 `json:"lambda"`    // L1 difference-penalty weight
+	Order         int     `json:"order"`     // difference order of the penalty
+	Criterion     string  `json:"criterion"` // "fixed", "sic" or "cv"
+	Score         float64 `json:"score"`     // criterion value at the choice
+}
+
+// Flag records a sample-size guard decision: too few observations beyond the
+// centile Tau in the age window [AgeLo, AgeHi).
+type Flag struct {
+	Tau      float64 `json:"tau"`
+	AgeLo    float64 `json:"age_lo"`
+	AgeHi    float64 `json:"age_hi"`
+	Expected float64 `json:"expected"` // expected count beyond the centile
+	Action   string  `json:"action"`   // "flagged" or "dropped"
+}
+
+// Band is a bootstrap pointwise 95% interval for one chart centile on an age
+// grid, with the percentile-interval trust check |bias|/SE.
+type Band struct {
+	Tau      float64   `json:"tau"`
+	Ages     []float64 `json:"ages"`
+	Lo       []float64 `json:"lo"`
+	Hi       []float64 `json:"hi"`
+	BiasToSE []float64 `json:"bias_to_se"`
+	Unstable bool      `json:"unstable"` // some |bias|/SE exceeds BiasSELimit
+}
+
+// Data holds measurement rows column-wise. Weight, Stratum and Subject may be
+// nil (all 1, one stratum, no subject ids).
+type Data struct {
+	Age     []float64
+	Value   []float64
+	Weight  []float64
+	Stratum []string
+	Subject []string
+}

@@ -1,0 +1,240 @@
+package solver
+
+import (
+	"fmt"
+	"math"
+)
+
+// Design is a sparse matrix whose row i holds Width consecutive entries
+// Val[i*Width:(i+1)*Width] starting at column First[i]; all other entries are
+// zero. B-spline design rows and difference-penalty rows have this shape.
+type Design struct {
+	Cols  int       // number of columns (coefficients)
+	Width int       // stored entries per row
+	First []int     // first stored column of each row
+	Val   []float64 // row-major stored entries, len(First)*Width
+}
+
+// NewDense returns a Design holding the dense rows of a (every row full width).
+func NewDense(rows [][]float64) *Design {
+	if len(rows) == 0 {
+		return &Design{}
+	}
+	p := len(rows[0])
+	d := &Design{Cols: p, Width: p, First: make([]int, len(rows)), Val: make([]float64, 0, len(rows)*p)}
+	for i, r := range rows {
+		if len(r) != p {
+			panic(fmt.Sprintf("solver: row %d has %d entries, want %d", i, len(r), p))
+		}
+		d.Val = append(d.Val, r...)
+	}
+	return d
+}
+
+// Rows returns the number of rows.
+func (d *Design) Rows() int { return len(d.First) }
+
+// Row returns the first stored column and the stored entries of row i.
+func (d *Design) Row(i int) (first int, val []float64) {
+	return d.First[i], d.Val[i*d.Width : (i+1)*d.Width]
+}
+
+// Dot returns x_i'b.
+func (d *Design) Dot(i int, b []float64) float64 {
+	f, v := d.Row(i)
+	s := 0.0
+	for k, x := range v {
+		s += x * b[f+k]
+	}
+	return s
+}
+
+// check panics when the stored shape is inconsistent: a programming mistake.
+func (d *Design) check() {
+	if d.Width < 0 || len(d.Val) != len(d.First)*d.Width {
+		panic(fmt.Sprintf("solver: design stores %d entries for %d rows of width %d", len(d.Val), len(d.First), d.Width))
+	}
+	for i, f := range d.First {
+		if f < 0 || f+d.Width > d.Cols {
+			panic(fmt.Sprintf("solver: design row %d spans columns %d..%d of %d", i, f, f+d.Width-1, d.Cols))
+		}
+	}
+}
+
+// Problem is one weighted, penalised, constrained quantile regression.
+type Problem struct {
+	Y   []float64 // responses
+	X   *Design   // design, one row per response
+	W   []float64 // weights >= 0; nil means all 1
+	Tau float64   // quantile level in (0,1)
+
+	Lambda  float64 // L1 penalty weight (>= 0) on the rows of Penalty
+	Penalty *Design // penalty rows d_j; nil means no penalty
+
+	G [][]float64 // constraint rows, G b >= H; nil means none
+	H []float64
+}
+
+// Method names a solution method.
+type Method int
+
+const (
+	Auto     Method = iota // choose by problem size
+	Simplex                // edge-descending simplex from scratch
+	Interior               // interior point, crossover, simplex finish
+)
+
+func (m Method) String() string {
+	switch m {
+	case Auto:
+		return "auto"
+	case Simplex:
+		return "simplex"
+	case Interior:
+		return "interior"
+	}
+	return fmt.Sprintf("Method(%d)", int(m))
+}
+
+// Settings tune Solve. The zero value, and nil, mean the documented defaults.
+type Settings struct {
+	// Method forces a method; Auto uses Simplex below SimplexRows rows
+	// (data plus penalty) and Interior above.
+	Method Method
+	// NoPreprocess turns off the sign-fixing reduction of large problems.
+	NoPreprocess bool
+	// MaxIter bounds simplex pivots (default 50*(rows+coefficients)+1000)
+	// and interior-point iterations (default 200).
+	MaxIter int
+	// Start is a solution of a neighbouring problem on the same rows (another
+	// tau, or other constraint bounds). Its residual signs reduce the problem
+	// and its basis starts the simplex method; the answer is still verified.
+	Start *Solution
+}
+
+// SimplexRows is the problem size (rows) below which Auto uses the simplex
+// method from scratch: beyond it pivots from a cold start grow with n.
+const SimplexRows = 600
+
+// PreprocessRows is the number of data rows above which Interior first solves a
+// reduced problem (Portnoy & Koenker 1997).
+const PreprocessRows = 20000
+
+// Solution is an exact optimal vertex.
+type Solution struct {
+	Coef       []float64 // b
+	Objective  float64   // sum of weighted check losses plus penalty
+	Iterations int       // simplex pivots plus interior-point iterations
+	Method     Method    // method that ran
+	// Basis lists the p conditions that define the vertex: a value k < n is
+	// data row k, n <= k < n+r is penalty row k-n, and n+r+j is constraint j.
+	Basis []int
+	// Dual holds, per data row then per penalty row, the multiplier d_i in
+	// [-c_i, a_i] with X'd + D'd_pen + G'mu = 0 (the optimality certificate).
+	Dual []float64
+	// ConstraintDual holds mu_j >= 0 for each constraint.
+	ConstraintDual []float64
+	// Reductions counts how many times the preprocessing had to repair a
+	// wrongly fixed sign.
+	Reductions int
+}
+
+// validate returns a typed error for bad user data.
+func (p *Problem) validate() error {
+	if p.X == nil {
+		panic("solver: nil design")
+	}
+	p.X.check()
+	n, q := p.X.Rows(), p.X.Cols
+	if len(p.Y) != n {
+		panic(fmt.Sprintf("solver: %d responses for %d design rows", len(p.Y), n))
+	}
+	if p.W != nil && len(p.W) != n {
+		panic(fmt.Sprintf("solver: %d weights for %d rows", len(p.W), n))
+	}
+	if !(p.Tau > 0 && p.Tau < 1) {
+		return fmt.Errorf("%w: tau = %v", ErrTau, p.Tau)
+	}
+	for i, y := range p.Y {
+		if !finite(y) {
+			return fmt.Errorf("%w: y[%d] = %v", ErrNotFinite, i, y)
+		}
+	}
+	for i, x := range p.X.Val {
+		if !finite(x) {
+			return fmt.Errorf("%w: design row %d", ErrNotFinite, i/max(p.X.Width, 1))
+		}
+	}
+	pos := n
+	if p.W != nil {
+		pos = 0
+		for i, w := range p.W {
+			if !finite(w) {
+				return fmt.Errorf("%w: weight[%d] = %v", ErrNotFinite, i, w)
+			}
+			if w < 0 {
+				return fmt.Errorf("%w: weight[%d] = %v", ErrNegWeight, i, w)
+			}
+			if w > 0 {
+				pos++
+			}
+		}
+	}
+	if pos < q {
+		return fmt.Errorf("%w: %d rows for %d coefficients", ErrTooFew, pos, q)
+	}
+	if !finite(p.Lambda) || p.Lambda < 0 {
+		return fmt.Errorf("%w: lambda = %v", ErrNotFinite, p.Lambda)
+	}
+	if p.Penalty != nil {
+		p.Penalty.check()
+		if p.Penalty.Cols != q {
+			panic(fmt.Sprintf("solver: penalty has %d columns, design %d", p.Penalty.Cols, q))
+		}
+		for i, x := range p.Penalty.Val {
+			if !finite(x) {
+				return fmt.Errorf("%w: penalty row %d", ErrNotFinite, i/max(p.Penalty.Width, 1))
+			}
+		}
+	}
+	if len(p.G) != len(p.H) {
+		panic(fmt.Sprintf("solver: %d constraint rows for %d bounds", len(p.G), len(p.H)))
+	}
+	for j, g := range p.G {
+		if len(g) != q {
+			panic(fmt.Sprintf("solver: constraint %d has %d entries, want %d", j, len(g), q))
+		}
+		for _, x := range g {
+			if !finite(x) {
+				return fmt.Errorf("%w: constraint %d", ErrNotFinite, j)
+			}
+		}
+		if !finite(p.H[j]) {
+			return fmt.Errorf("%w: bound %d", ErrNotFinite, j)
+		}
+	}
+	return nil
+}
+
+func finite(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }
+
+// resize returns s with length n, reusing its storage when it is large enough.
+func resize(s []float64, n int) []float64 {
+	if cap(s) >= n {
+		return s[:n]
+	}
+	return make([]float64, n)
+}
+
+// Solve returns the exact optimal vertex of p. It returns a wrapped typed
+// error (see errors.go) for bad data or an infeasible or unsolved problem,
+// and panics only on inconsistent shapes (a programming mistake).
+func Solve(p *Problem, s *Settings) (*Solution, error) {
+	return solve(p, s)
+}
+
+// SolveGrid solves p at each tau of taus (in any order), starting each from
+// the solution at the nearest tau already solved. p.Tau is ignored.
+func SolveGrid(p *Problem, taus []float64, s *Settings) ([]*Solution, error) {
+	return solveGrid(p, taus, s)
+}
