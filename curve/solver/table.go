@@ -1,0 +1,151 @@
+package solver
+
+import "math"
+
+// table is the solver's internal form of a problem. Rows [0, nSoft) are soft:
+// a residual r_i = y_i - x_i'b costs a_i*r_i when positive and -c_i*r_i when
+// negative. Rows [nSoft, rows) are hard constraints x_i'b >= y_i. The first
+// rows are banded (data and penalty rows, in x); the rest are dense (pooled
+// rows of preprocess.go, then the constraints, in wide).
+type table struct {
+	x     *Design // banded rows [0, x.Rows())
+	wide  *Design // dense rows after them
+	y     []float64
+	a, c  []float64 // soft-row costs; unused for hard rows
+	nSoft int
+	// orig maps rows to those of the table this one was taken from (-1 for
+	// a pooled row); nil means the identity.
+	orig []int
+}
+
+func (t *table) rows() int { return len(t.y) }
+func (t *table) p() int    { return t.x.Cols }
+
+// row returns the first stored column and the stored entries of row i.
+func (t *table) row(i int) (int, []float64) {
+	if n := len(t.x.First); i >= n {
+		return t.wide.Row(i - n)
+	}
+	return t.x.Row(i)
+}
+
+// parts returns the two designs with the index of their first row.
+func (t *table) parts() [2]part {
+	return [2]part{{t.x, 0}, {t.wide, len(t.x.First)}}
+}
+
+type part struct {
+	d   *Design
+	off int
+}
+
+// newTable builds the internal form of p: data and penalty rows padded to a
+// common width, then the constraint rows.
+func newTable(pr *Problem) *table {
+	n, q := pr.X.Rows(), pr.X.Cols
+	width := pr.X.Width
+	nPen := 0
+	if pr.Penalty != nil {
+		nPen = pr.Penalty.Rows()
+		width = max(width, pr.Penalty.Width)
+	}
+	nx := n + nPen
+	total := nx + len(pr.G)
+	t := &table{
+		x:     &Design{Cols: q, Width: width, First: make([]int, nx), Val: make([]float64, nx*width)},
+		wide:  NewDense(pr.G),
+		y:     make([]float64, total),
+		a:     make([]float64, total),
+		c:     make([]float64, total),
+		nSoft: nx,
+	}
+	t.wide.Cols = q
+	put := func(i, first int, val []float64) {
+		f := min(first, q-width)
+		t.x.First[i] = f
+		copy(t.x.Val[i*width+first-f:], val)
+	}
+	for i := 0; i < n; i++ {
+		f, v := pr.X.Row(i)
+		put(i, f, v)
+		w := 1.0
+		if pr.W != nil {
+			w = pr.W[i]
+		}
+		t.y[i] = pr.Y[i]
+		t.a[i] = w * pr.Tau
+		t.c[i] = w * (1 - pr.Tau)
+	}
+	for k := 0; k < nPen; k++ {
+		f, v := pr.Penalty.Row(k)
+		put(n+k, f, v)
+		t.a[n+k] = pr.Lambda
+		t.c[n+k] = pr.Lambda
+	}
+	copy(t.y[nx:], pr.H)
+	return t
+}
+
+// residuals writes r_i = y_i - x_i'b for every row.
+func (t *table) residuals(r, b []float64) {
+	for _, pt := range t.parts() {
+		w := pt.d.Width
+		for i, f := range pt.d.First {
+			s := 0.0
+			for k, x := range pt.d.Val[i*w : i*w+w] {
+				s += x * b[f+k]
+			}
+			r[pt.off+i] = t.y[pt.off+i] - s
+		}
+	}
+}
+
+// objective returns the soft rows' check losses at residuals r.
+func (t *table) objective(r []float64) float64 {
+	f := 0.0
+	for i := 0; i < t.nSoft; i++ {
+		f += rho(r[i], t.a[i], t.c[i])
+	}
+	return f
+}
+
+func rho(r, a, c float64) float64 {
+	if r > 0 {
+		return a * r
+	}
+	return -c * r
+}
+
+// scales returns the largest |y| (at least 1) and the largest soft cost of
+// the banded and hard rows, used to make tolerances relative. Pooled rows
+// are left out: their responses are far from their fits by design.
+func (t *table) scales() (ys, cs float64) {
+	ys = 1
+	nx := len(t.x.First)
+	for i, y := range t.y {
+		if i < nx || i >= t.nSoft {
+			ys = math.Max(ys, math.Abs(y))
+		}
+	}
+	for i := 0; i < nx; i++ {
+		cs = math.Max(cs, t.a[i]+t.c[i])
+	}
+	if cs == 0 {
+		cs = 1
+	}
+	return ys, cs
+}
+
+// addRow adds a*x_i to dst.
+func (t *table) addRow(dst []float64, i int, a float64) {
+	f, v := t.row(i)
+	for k, x := range v {
+		dst[f+k] += a * x
+	}
+}
+
+// dense returns row i as a dense vector in dst.
+func (t *table) dense(dst []float64, i int) {
+	clear(dst)
+	t.addRow(dst, i, 1)
+}

@@ -1,0 +1,140 @@
+package intake
+
+import "unicode/utf8"
+
+// headerLine returns the first non-blank line of data (without its line
+// ending) and its 1-based line number. A newline inside double quotes does
+// not end the line.
+func headerLine(data []byte) ([]byte, int) {
+	line := 1
+	start := 0
+	for start < len(data) && (data[start] == '\n' || data[start] == '\r') {
+		if data[start] == '\n' {
+			line++
+		}
+		start++
+	}
+	quoted := false
+	for i := start; i < len(data); i++ {
+		switch data[i] {
+		case '"':
+			quoted = !quoted
+		case '\n':
+			if !quoted {
+				end := i
+				if end > start && data[end-1] == '\r' {
+					end--
+				}
+				return data[start:end], line
+			}
+		}
+	}
+	return data[start:], line
+}
+
+// detectDelimiter picks the delimiter of a header line: the most frequent of
+// comma, semicolon and tab outside double quotes, preferring them in that
+// order on a tie. A header with none of them is read as comma-separated.
+func detectDelimiter(header []byte) rune {
+	var n [3]int
+	quoted := false
+	for _, c := range header {
+		switch {
+		case c == '"':
+			quoted = !quoted
+		case quoted:
+		case c == ',':
+			n[0]++
+		case c == ';':
+			n[1]++
+		case c == '\t':
+			n[2]++
+		}
+	}
+	best := 0
+	for k := 1; k < 3; k++ {
+		if n[k] > n[best] {
+			best = k
+		}
+	}
+	return [3]rune{',', ';', '\t'}[best]
+}
+
+// looksComma reports whether s is a plain number written with a decimal
+// comma, like 12,5 or -0,25.
+func looksComma(s string) bool {
+	i := 0
+	if i < len(s) && (s[i] == '+' || s[i] == '-') {
+		i++
+	}
+	a := digits(s, i)
+	if a == i || a >= len(s) || s[a] != ',' {
+		return false
+	}
+	b := digits(s, a+1)
+	return b > a+1 && b == len(s)
+}
+
+// looksPoint reports whether s is a plain number with a decimal point, like
+// 12.5, .5 or 1.5e3.
+func looksPoint(s string) bool {
+	for k := 0; k < len(s); k++ {
+		if s[k] == '.' {
+			return isDecimal(s)
+		}
+	}
+	return false
+}
+
+// isDecimal reports whether s is a decimal number: optional sign, digits
+// with at most one point and at least one digit, optional exponent. It
+// rejects what strconv.ParseFloat accepts beyond that (hex, underscores,
+// Inf, NaN).
+func isDecimal(s string) bool {
+	i := 0
+	if i < len(s) && (s[i] == '+' || s[i] == '-') {
+		i++
+	}
+	a := digits(s, i)
+	nd := a - i
+	if a < len(s) && s[a] == '.' {
+		b := digits(s, a+1)
+		nd += b - a - 1
+		a = b
+	}
+	if nd == 0 {
+		return false
+	}
+	if a < len(s) && (s[a] == 'e' || s[a] == 'E') {
+		a++
+		if a < len(s) && (s[a] == '+' || s[a] == '-') {
+			a++
+		}
+		b := digits(s, a)
+		if b == a {
+			return false
+		}
+		a = b
+	}
+	return a == len(s)
+}
+
+func digits(s string, i int) int {
+	for i < len(s) && s[i] >= '0' && s[i] <= '9' {
+		i++
+	}
+	return i
+}
+
+// firstInvalidUTF8 returns the byte offset of the first invalid UTF-8
+// sequence in b, or -1.
+func firstInvalidUTF8(b []byte) int {
+	for i := 0; i < len(b); {
+		r, size := utf8.DecodeRune(b[i:])
+		if r == utf8.RuneError && size == 1 {
+			return i
+		}
+		i += size
+	}
+	return -1
+}

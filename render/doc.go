@@ -1,0 +1,34 @@
+// Package render draws growband's charts with gonum/plot: the centile chart,
+// the worm plot of detrended normal Q–Q points per age group, the histogram of
+// a cohort's z-scores against the standard normal density, and the chart of a
+// difference curve between two references in z units. Charts are built from
+// plain input structs (this package knows nothing of how curves are fitted)
+// and written as SVG, PNG or PDF by Write and Save.
+//
+// Each constructor returns a *Figure: one plot or a grid of panels, a title
+// and the caution printed in small type at the bottom.
+//
+// The centile chart shades the areas between paired centiles (for example
+// 3–97, 10–90, 25–75) in one hue, lighter outward; see Palette.
+//
+// The worm plot shows, for n sorted z-scores z₍ᵢ₎ with Blom plotting positions
+// and unit normal quantiles
+//
+//	pᵢ = (i − 3/8) / (n + 1/4),   qᵢ = Φ⁻¹(pᵢ),   dᵢ = z₍ᵢ₎ − qᵢ,
+//
+// the points (qᵢ, dᵢ) and the approximate pointwise 95% envelope
+//
+//	±1.96 · √(p(1 − p)/n) / φ(q),   p = Φ(q),
+//
+// from the large-sample standard error of a normal order statistic.
+//
+// References:
+//   - van Buuren S, Fredriks M (2001). Worm plot: a simple diagnostic device
+//     for modelling growth reference curves. Statistics in Medicine 20,
+//     1259–1277.
+//   - Blom G (1958). Statistical Estimates and Transformed Beta-Variables.
+//     Wiley, New York.
+//   - Freedman D, Diaconis P (1981). On the histogram as a density estimator:
+//     L2 theory. Zeitschrift für Wahrscheinlichkeitstheorie und verwandte
+//     Gebiete 57, 453–476.
+package render
