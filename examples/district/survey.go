@@ -151,18 +151,18 @@ func appendChild(rows []Row, g *stream, num int) []Row {
 	}
 	birth := firstVisitDay.AddDate(0, 0, g.intn(startSpread)-ageDays)
 
-	zLen := g.normal()
-	zWt := weightOnLen*zLen + math.Sqrt(1-weightOnLen*weightOnLen)*g.normal()
+	lengthScore := g.normal()
+	weightScore := weightOnLen*lengthScore + math.Sqrt(1-weightOnLen*weightOnLen)*g.normal()
 	innov := math.Sqrt(1 - driftKeep*driftKeep)
 	for v := 0; v < visits; v++ {
 		if v > 0 {
 			ageDays += gaps[v-1]
-			zLen = driftKeep*zLen + innov*g.normal()
-			zWt = driftKeep*zWt + innov*g.normal()
+			lengthScore = driftKeep*lengthScore + innov*g.normal()
+			weightScore = driftKeep*weightScore + innov*g.normal()
 		}
 		age := round(float64(ageDays)/daysPerMonth, 2)
-		w := round(valueAt(Weight, sex, age, zWt), 1)
-		h := round(valueAt(Length, sex, age, zLen), 1)
+		w := round(valueAt(Weight, sex, age, weightScore), 1)
+		h := round(valueAt(Length, sex, age, lengthScore), 1)
 		rows = append(rows, Row{
 			ChildID:      fmt.Sprintf("TW%05d", num),
 			Visit:        v + 1,
