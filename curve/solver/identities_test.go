@@ -307,3 +307,33 @@ func TestWarmStart(t *testing.T) {
 		}
 	}
 }
+
+// TestWarmStartGrowth steps from tau 0.76 to 0.77 on 100,000 growth-like rows
+// with a cubic B-spline design, where preprocessing uses the start (a step
+// of BenchmarkGrid99x1e5 that once failed with ErrRankDeficient).
+func TestWarmStartGrowth(t *testing.T) {
+	if testing.Short() {
+		t.Skip("100,000 rows")
+	}
+	p := testGrowthProblem(100000)
+	p.Tau = 0.76
+	start, err := testSolve(p, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	to := *p
+	to.Tau = 0.77
+	cold, err := testSolve(&to, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	warm, err := testSolve(&to, &Settings{Start: start})
+	if err != nil {
+		t.Fatalf("warm start from tau 0.76: %v", err)
+	}
+	checkCertificate(t, &to, warm, dataCertTol)
+	// Same LP, so the same optimal objective (exact identity).
+	if !testRelClose(warm.Objective, cold.Objective, identObjTol) {
+		t.Errorf("warm objective %.15g, cold %.15g", warm.Objective, cold.Objective)
+	}
+}

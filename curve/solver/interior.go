@@ -83,12 +83,14 @@ func interior(t *table, maxIter int) (b []float64, iters int, err error) {
 	)
 	active := func(i int) bool { return i >= ns || t.a[i]+t.c[i] > 0 }
 
-	// Start from the least-squares fit weighted by the row costs.
-	for i := 0; i < ns; i++ {
+	// Start from the least-squares fit of the banded rows weighted by their
+	// costs; pooled rows would dominate it, by design far from their fits.
+	nx := len(t.x.First)
+	for i := 0; i < nx; i++ {
 		om[i] = t.a[i] + t.c[i]
 		q[i] = t.y[i]
 	}
-	if err := normalSolve(t, msym, &chol, om[:ns], q[:ns], nil, b0); err != nil {
+	if err := normalSolve(t, msym, &chol, om[:nx], q[:nx], nil, b0); err != nil {
 		return nil, 0, err
 	}
 	t.residuals(r, b0)

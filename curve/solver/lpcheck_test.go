@@ -573,6 +573,30 @@ var regressions = []struct {
 			Tau: 201.0 / 257,
 		}}
 	}},
+	{"3 rows for 3 coefficients, two constraints (found by FuzzSolve; Simplex said rank deficient)", func() testProblem {
+		// Decoded from fuzz input "22080zzz00001000100110000". The design
+		// is nonsingular; gonum's simplex and Interior find the optimum.
+		return testProblem{p: &Problem{
+			Y:   []float64{-10, -10, -10},
+			X:   NewDense([][]float64{{-0.375, -0.375, -0.375}, {-5, -5, -4.9375}, {-5, -4.9375, -5}}),
+			Tau: 49.0 / 257,
+			G:   [][]float64{{-1.234375, -1.25, -1.25}, {-1.25, -2, -2}},
+			H:   []float64{-5, -8},
+		}}
+	}},
+	{"9 equal responses, L1 penalty on each coefficient (found by FuzzSolve; Simplex cycled)", func() testProblem {
+		// Decoded from a fuzz input (see FuzzSolve seeds): every vertex is
+		// degenerate, and Simplex reached its 1750-pivot limit.
+		return testProblem{p: &Problem{
+			Y: []float64{1.5, 1.5, 1.5, 1.5, 1.5, 1.5, 1.5, 1.5, 1.5},
+			X: NewDense([][]float64{{-5, -5, -6}, {-5, -4.9375, -2.375}, {-5, -4.875, -0.375},
+				{-5, -4.875, -6}, {-5, -0.5, 0.75}, {-5, 0.75, -1.875}, {-4.875, 0.75, 0.75},
+				{-5, -5, -2.5}, {-5, -4.9375, -0.5}}),
+			Tau:     49.0 / 257,
+			Lambda:  0.75,
+			Penalty: &Design{Cols: 3, Width: 1, First: []int{0, 1, 2}, Val: []float64{-2.5, -2.5, -1.25}},
+		}}
+	}},
 }
 
 // testTiedAges is a small hand-made degenerate problem: integer ages 0..5,

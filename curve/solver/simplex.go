@@ -217,7 +217,8 @@ func (s *simplex) entering(bland bool) (k int, dir float64) {
 	for j := 0; j < s.p; j++ {
 		up, down := s.slopes(j)
 		for _, e := range [2]struct{ d, dir float64 }{{up, 1}, {down, -1}} {
-			if e.d >= -s.tolSlope {
+			// Relative to the terms that make up the slope.
+			if e.d >= -s.tolSlope-optimalSlope*math.Abs(s.z[j]) {
 				continue
 			}
 			score := e.d / s.norms[j]
@@ -279,9 +280,14 @@ func (s *simplex) step(k int, dir float64, slope float64, bland bool) (enter int
 		}
 		return cmp.Compare(x.i, y.i)
 	})
+	// The slope is a sum of terms; rounding is relative to their size.
+	size := math.Abs(slope)
 	for n, bp := range s.bps {
 		slope += bp.inc
-		if slope >= -s.tolSlope*1e-3 {
+		size += bp.inc
+		// Under the smallest-index rule every step is a plain pivot to the
+		// first breakpoint, which cannot cycle (Bland 1977).
+		if bland || slope >= -optimalSlope*size {
 			for _, q := range s.bps[:n] {
 				s.side[q.i] = -s.side[q.i]
 			}

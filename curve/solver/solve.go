@@ -1,6 +1,7 @@
 package solver
 
 import (
+	"errors"
 	"math"
 	"slices"
 )
@@ -36,6 +37,11 @@ func solveTable(t *table, basis []int, method Method, maxIter int) (*vertex, err
 		}
 	}
 	s, err := exact(t, basis, maxIter)
+	if err != nil && basis != nil && !errors.Is(err, ErrInfeasible) {
+		// A start that leads into a numerically singular basis is
+		// abandoned for a cold one rather than reported.
+		s, err = exact(t, nil, maxIter)
+	}
 	if err != nil {
 		return nil, err
 	}
