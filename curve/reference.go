@@ -1,6 +1,10 @@
 package curve
 
-import "time"
+import (
+	"time"
+
+	"growband/spline"
+)
 
 // FormatVersion is the version of the reference file written by Save. Load
 // refuses files of a newer version.
@@ -24,7 +28,11 @@ type Reference struct {
 	Created   time.Time `json:"created"`
 	InputHash string    `json:"input_hash"` // hex SHA-256 of the input rows used
 	Caution   string    `json:"caution"`
-	Strata    []Stratum `json:"strata"`
+	// Tails is the z-score rule beyond ±3 SD of LMS-table strata: "" or
+	// TailsPlain for the Box–Cox formula throughout, TailsRestricted for the
+	// restricted extension (see LoadLMSTable). Fitted strata ignore it.
+	Tails  string    `json:"tails,omitempty"`
+	Strata []Stratum `json:"strata"`
 }
 
 // AgeScale is the age transformation T used inside the basis: "identity",
@@ -37,8 +45,8 @@ type AgeScale struct {
 
 // Stratum is the fit for one group (for example one sex).
 type Stratum struct {
-	Name   string  `json:"name"`   // stratum label; "" when the data have none
-	N      int     `json:"n"`      // rows used
+	Name   string  `json:"name"`    // stratum label; "" when the data have none
+	N      int     `json:"n"`       // rows used
 	AgeMin float64 `json:"age_min"` // fitted range in age units
 	AgeMax float64 `json:"age_max"`
 	// Knots is the full clamped knot vector on the transformed age scale.
@@ -54,6 +62,27 @@ type Stratum struct {
 	// Bands holds bootstrap pointwise intervals per chart centile; nil when no
 	// bootstrap was asked for.
 	Bands []Band `json:"bands,omitempty"`
+	// LMS, when not nil, makes this a stratum of an external LMS table (see
+	// LoadLMSTable): the centiles come from the tabulated L, M and S, Knots
+	// and Coef are empty, and Taus equals Chart.
+	LMS *LMSCurve `json:"lms,omitempty"`
+
+	// checked records that Reference.ready validated an LMS stratum.
+	checked bool `json:"-"`
+	// basis caches the B-spline basis on Knots, set by Reference.ready (Load)
+	// before the reference is shared; nil means each look-up builds one.
+	basis *spline.Basis `json:"-"`
+}
+
+// LMSCurve is a tabulated LMS reference for one stratum: at age Ages[i] the
+// measurement is Box–Cox normal with power L[i], median M[i] and coefficient
+// of variation S[i] (Cole 1990). Ages are strictly increasing, M and S
+// positive; between tabulated ages the three are interpolated linearly.
+type LMSCurve struct {
+	Ages []float64 `json:"ages"`
+	L    []float64 `json:"l"`
+	M    []float64 `json:"m"`
+	S    []float64 `json:"s"`
 }
 
 // Smoothness records how the curves' flexibility was chosen.

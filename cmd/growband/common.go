@@ -1,0 +1,388 @@
+package main
+
+import (
+	"flag"
+	"fmt"
+	"math"
+	"os"
+	"slices"
+	"strconv"
+	"strings"
+	"unicode"
+
+	"growband/curve"
+	"growband/internal/intake"
+)
+
+// tableRows is about how many ages a default table or chart grid has: one a
+// month over 0–60 months, a tidy step elsewhere.
+const tableRows = 60
+
+// chartPoints is the number of ages a chart curve is drawn through: enough
+// that a cubic spline looks smooth at print size.
+const chartPoints = 241
+
+// gridSlack is the relative slack when deciding whether the last age of a
+// grid From:To:Step falls on To, so that 0:60:0.1 ends at 60 despite
+// rounding in 0.1.
+const gridSlack = 1e-9
+
+// loadReference reads a reference file, naming the flag when it is missing.
+func loadReference(cmd, path string) (*curve.Reference, error) {
+	if path == "" {
+		return nil, usagef(cmd, "%s: --ref FILE is required", cmd)
+	}
+	r, err := curve.LoadFile(path)
+	if err != nil {
+		if os.IsNotExist(err) {
+			return nil, fmt.Errorf("reference file %s does not exist", path)
+		}
+		return nil, err
+	}
+	return r, nil
+}
+
+// parseNumbers reads a comma-separated list of numbers; what names the
+// list in errors.
+func parseNumbers(s, what string) ([]float64, error) {
+	var out []float64
+	for _, f := range strings.Split(s, ",") {
+		f = strings.TrimSpace(f)
+		if f == "" {
+			continue
+		}
+		x, err := strconv.ParseFloat(f, 64)
+		if err != nil || math.IsNaN(x) || math.IsInf(x, 0) {
+			return nil, fmt.Errorf("%s: %q is not a number", what, f)
+		}
+		out = append(out, x)
+	}
+	if len(out) == 0 {
+		return nil, fmt.Errorf("%s: no numbers given", what)
+	}
+	return out, nil
+}
+
+// parseAges reads "FROM:TO:STEP" or a comma-separated list of ages.
+func parseAges(s string) ([]float64, error) {
+	if !strings.Contains(s, ":") {
+		return parseNumbers(s, "ages")
+	}
+	parts := strings.Split(s, ":")
+	if len(parts) != 3 {
+		return nil, fmt.Errorf("ages: want FROM:TO:STEP, got %q", s)
+	}
+	var v [3]float64
+	for i, p := range parts {
+		x, err := strconv.ParseFloat(strings.TrimSpace(p), 64)
+		if err != nil || math.IsNaN(x) || math.IsInf(x, 0) {
+			return nil, fmt.Errorf("ages: %q in %q is not a number", p, s)
+		}
+		v[i] = x
+	}
+	if !(v[2] > 0) || v[1] < v[0] {
+		return nil, fmt.Errorf("ages: want FROM <= TO and STEP > 0, got %q", s)
+	}
+	if (v[1]-v[0])/v[2] > 1e6 {
+		return nil, fmt.Errorf("ages: %q gives more than a million ages", s)
+	}
+	return grid(v[0], v[1], v[2]), nil
+}
+
+// readAgesFile reads ages from a file: numbers separated by line breaks,
+// commas or spaces; lines starting with # are comments.
+func readAgesFile(path string) ([]float64, error) {
+	b, err := os.ReadFile(path)
+	if err != nil {
+		return nil, err
+	}
+	var out []float64
+	for i, line := range strings.Split(string(b), "\n") {
+		line = strings.TrimSpace(line)
+		if line == "" || strings.HasPrefix(line, "#") {
+			continue
+		}
+		for _, f := range strings.FieldsFunc(line, func(r rune) bool { return r == ',' || r == ';' || unicode.IsSpace(r) }) {
+			x, err := strconv.ParseFloat(f, 64)
+			if err != nil || math.IsNaN(x) || math.IsInf(x, 0) {
+				return nil, fmt.Errorf("%s:%d: %q is not an age", path, i+1, f)
+			}
+			out = append(out, x)
+		}
+	}
+	if len(out) == 0 {
+		return nil, fmt.Errorf("%s: no ages in file", path)
+	}
+	return out, nil
+}
+
+// grid returns from, from+step, ... up to to (included when on the grid).
+func grid(from, to, step float64) []float64 {
+	n := int(math.Floor((to-from)/step*(1+gridSlack) + gridSlack))
+	out := make([]float64, 0, n+1)
+	for i := 0; i <= n; i++ {
+		out = append(out, tidy(from+float64(i)*step))
+	}
+	return out
+}
+
+// tidy rounds x to 12 significant digits so grid ages such as 0.1*3 print
+// as 0.3.
+func tidy(x float64) float64 {
+	y, _ := strconv.ParseFloat(strconv.FormatFloat(x, 'g', 12, 64), 64)
+	return y
+}
+
+// niceStep returns a step of 1, 2, 2.5 or 5 times a power of ten that
+// divides span into about n parts.
+func niceStep(span float64, n int) float64 {
+	if !(span > 0) {
+		return 1
+	}
+	raw := span / float64(n)
+	p := math.Pow(10, math.Floor(math.Log10(raw)))
+	for _, m := range []float64{1, 2, 2.5, 5, 10} {
+		if m*p >= raw*0.999 {
+			return m * p
+		}
+	}
+	return 10 * p
+}
+
+// defaultAges is the table grid of a stratum when none is given: tidy ages
+// inside the fitted range.
+func defaultAges(st *curve.Stratum) []float64 {
+	step := niceStep(st.AgeMax-st.AgeMin, tableRows)
+	from := math.Ceil(st.AgeMin/step-gridSlack) * step
+	to := math.Floor(st.AgeMax/step+gridSlack) * step
+	if to < from {
+		return []float64{st.AgeMin, st.AgeMax}
+	}
+	return grid(from, to, step)
+}
+
+// inRange splits ages into those inside the stratum's fitted range and
+// those outside.
+func inRange(st *curve.Stratum, ages []float64) (in, out []float64) {
+	for _, a := range ages {
+		if a >= st.AgeMin && a <= st.AgeMax {
+			in = append(in, a)
+		} else {
+			out = append(out, a)
+		}
+	}
+	return in, out
+}
+
+// linspace returns n ages evenly spread over [lo, hi].
+func linspace(lo, hi float64, n int) []float64 {
+	out := make([]float64, n)
+	for i := range out {
+		out[i] = lo + (hi-lo)*float64(i)/float64(n-1)
+	}
+	out[n-1] = hi
+	return out
+}
+
+// selectStrata returns the strata of r named by name, or all when name is
+// "".
+func selectStrata(r *curve.Reference, name string) ([]*curve.Stratum, error) {
+	if name == "" {
+		out := make([]*curve.Stratum, len(r.Strata))
+		for i := range r.Strata {
+			out[i] = &r.Strata[i]
+		}
+		return out, nil
+	}
+	st, err := r.Stratum(name)
+	if err != nil {
+		return nil, err
+	}
+	return []*curve.Stratum{st}, nil
+}
+
+// centileName is the column name of a centile: the number, as in "3",
+// "50", "97" or "2.5".
+func centileName(p float64) string { return strconv.FormatFloat(p, 'g', -1, 64) }
+
+// num formats a measurement-scale number for tables: six significant digits.
+func num(x float64) string {
+	if math.IsNaN(x) {
+		return ""
+	}
+	return strconv.FormatFloat(x, 'g', 6, 64)
+}
+
+// ageText formats an age.
+func ageText(x float64) string { return strconv.FormatFloat(tidy(x), 'g', -1, 64) }
+
+// zText formats a z-score to three decimals.
+func zText(z float64) string {
+	if math.IsNaN(z) {
+		return ""
+	}
+	return strconv.FormatFloat(z, 'f', 3, 64)
+}
+
+// centileText formats a centile in percent to two decimals, with more
+// digits in the far tails where two decimals would read 0.00 or 100.00.
+func centileText(c float64) string {
+	switch {
+	case math.IsNaN(c):
+		return ""
+	case c < 0.01 || c > 99.99:
+		return strconv.FormatFloat(c, 'g', 6, 64)
+	}
+	return strconv.FormatFloat(c, 'f', 2, 64)
+}
+
+// fileStem turns a stratum name into a safe file name part: lower case
+// letters, digits and '-'; "all" for the unnamed stratum.
+func fileStem(name string) string {
+	var b strings.Builder
+	dash := false
+	for _, r := range strings.ToLower(name) {
+		if r < 128 && (unicode.IsLetter(r) || unicode.IsDigit(r)) {
+			b.WriteRune(r)
+			dash = false
+		} else if !dash && b.Len() > 0 {
+			b.WriteByte('-')
+			dash = true
+		}
+	}
+	s := strings.TrimSuffix(b.String(), "-")
+	if s == "" {
+		return "all"
+	}
+	return s
+}
+
+// fileStems gives each stratum a distinct file name part.
+func fileStems(strata []curve.Stratum) []string {
+	out := make([]string, len(strata))
+	seen := map[string]bool{}
+	for i, st := range strata {
+		s := fileStem(st.Name)
+		for k := 2; seen[s]; k++ {
+			s = fmt.Sprintf("%s-%d", fileStem(st.Name), k)
+		}
+		seen[s] = true
+		out[i] = s
+	}
+	return out
+}
+
+// columnFlags are the flags naming the columns of a measurement CSV file,
+// shared by score, chart and check.
+type columnFlags struct {
+	age, birth, visit, value, stratum, subject, unit, dateFormat, codes string
+	stratumName                                                         string
+}
+
+func (c *columnFlags) register(fs *flag.FlagSet, withSubject bool) {
+	fs.StringVar(&c.age, "age-column", "age", "column holding the age, in the reference's age unit")
+	fs.StringVar(&c.birth, "birth-column", "", "column holding the date of birth (with --visit-column, instead of --age-column)")
+	fs.StringVar(&c.visit, "visit-column", "", "column holding the date of measurement (with --birth-column)")
+	fs.StringVar(&c.value, "value-column", "", "column holding the measurement (default: the reference's measure name)")
+	fs.StringVar(&c.stratum, "stratum-column", "", `column holding the stratum (default: "stratum" when the reference has several strata)`)
+	fs.StringVar(&c.unit, "unit", "", "unit of the values in the file, converted to the reference's unit (default: the reference's unit)")
+	fs.StringVar(&c.dateFormat, "date-format", intake.DefaultDateFormat, "layout of the date columns, e.g. YYYY-MM-DD, DD/MM/YYYY, MM/DD/YYYY, DD.MM.YYYY or YYYYMMDD")
+	fs.StringVar(&c.codes, "stratum-codes", "", `map stratum codes to the reference's names, e.g. "F=female,M=male,1=male,2=female"`)
+	if withSubject {
+		fs.StringVar(&c.subject, "child-column", "", "column holding the child id (points of one child are joined)")
+	}
+}
+
+// spec turns the flags into a reading spec for a file to be scored against
+// r: every row is kept, limits are the reference's business.
+func (c *columnFlags) spec(cmd string, r *curve.Reference, fs *flag.FlagSet) (*intake.Spec, error) {
+	set := given(fs)
+	s := &intake.Spec{
+		Value:          c.value,
+		Subject:        c.subject,
+		AgeUnit:        r.AgeUnit,
+		Unit:           r.Unit,
+		InputUnit:      c.unit,
+		DateFormat:     c.dateFormat,
+		KeepDuplicates: true,
+	}
+	if s.Value == "" {
+		s.Value = r.Measure
+		if s.Value == "" {
+			return nil, usagef(cmd, "%s: the reference names no measure: give --value-column", cmd)
+		}
+	}
+	switch {
+	case c.birth != "" || c.visit != "":
+		if c.birth == "" || c.visit == "" {
+			return nil, usagef(cmd, "%s: --birth-column and --visit-column go together", cmd)
+		}
+		if set["age-column"] {
+			return nil, usagef(cmd, "%s: give --age-column or --birth-column with --visit-column, not both", cmd)
+		}
+		s.Birth, s.Measured = c.birth, c.visit
+	default:
+		s.Age = c.age
+	}
+	if s.InputUnit == "" {
+		s.InputUnit = s.Unit
+	}
+	switch {
+	case c.stratum != "":
+		s.Stratum = c.stratum
+	case len(r.Strata) > 1 && c.stratumName == "":
+		s.Stratum = "stratum"
+	}
+	if c.codes != "" {
+		m, err := parseCodes(c.codes)
+		if err != nil {
+			return nil, usagef(cmd, "%s: --stratum-codes: %v", cmd, err)
+		}
+		s.StratumCodes = m
+	}
+	return s, nil
+}
+
+// parseCodes reads "code=label,code=label".
+func parseCodes(s string) (map[string]string, error) {
+	m := map[string]string{}
+	for _, pair := range strings.Split(s, ",") {
+		code, label, ok := strings.Cut(pair, "=")
+		code, label = strings.TrimSpace(code), strings.TrimSpace(label)
+		if !ok || code == "" || label == "" {
+			return nil, fmt.Errorf("want code=label, got %q", pair)
+		}
+		m[code] = label
+	}
+	return m, nil
+}
+
+// rowStratum is the stratum of a row: the --stratum flag when given (all
+// rows are then in it), else the row's own.
+func (c *columnFlags) rowStratum(row string) string {
+	if c.stratumName != "" {
+		return c.stratumName
+	}
+	return row
+}
+
+// strataNames lists the names of r's strata for messages.
+func strataNames(r *curve.Reference) string {
+	var s []string
+	for _, st := range r.Strata {
+		s = append(s, strconv.Quote(st.Name))
+	}
+	return strings.Join(s, ", ")
+}
+
+// chartCentiles returns the stratum's chart centiles in percent.
+func chartCentiles(st *curve.Stratum) []float64 {
+	out := make([]float64, len(st.Chart))
+	for i, t := range st.Chart {
+		out[i] = tidy(100 * t)
+	}
+	return slices.Clip(out)
+}
+
+// shortAge formats an age for summaries: four significant digits.
+func shortAge(x float64) string { return strconv.FormatFloat(x, 'g', 4, 64) }

@@ -1,0 +1,151 @@
+package main
+
+import (
+	"encoding/json"
+	"fmt"
+	"io"
+	"math"
+
+	"growband/curve"
+)
+
+const tableUsage = `usage: growband table --ref FILE [--ages 0:60:0.5 | --ages 1,2,3 | --ages-file F]
+                      [--centiles 3,50,97] [--stratum S] [--format csv|json] [--velocity]
+
+Writes the reference's centiles to standard output: one row per stratum and
+age, one column per centile named by its number (for example "3", "50",
+"97"), then the L, M and S of the Box-Cox normal summary at that age (empty
+where the centiles cannot be summarised that way). With --velocity the
+centile columns hold growth velocities instead, the rate of change of each
+centile curve per age unit, and there are no L, M, S columns.
+
+Ages default to a tidy grid over each stratum's fitted age range; ages
+outside a stratum's fitted range are left out (a reference is never
+extrapolated) with a message on standard error. Centiles default to the
+reference's chart centiles; any centile inside the fitted tau grid can be
+asked for.
+`
+
+func runTable(args []string, stdout, stderr io.Writer) error {
+	fs := newFlags("table")
+	refPath := fs.String("ref", "", "reference file written by build (required)")
+	agesFlag := fs.String("ages", "", "ages as FROM:TO:STEP or a comma-separated list (default: a grid over the fitted range)")
+	agesFile := fs.String("ages-file", "", "file of ages, one or more per line (instead of --ages)")
+	centFlag := fs.String("centiles", "", "comma-separated centiles in percent (default: the chart centiles)")
+	stratum := fs.String("stratum", "", "only this stratum (default: all)")
+	format := fs.String("format", "csv", "output format: csv or json")
+	velocity := fs.Bool("velocity", false, "give growth velocities (change per age unit) instead of centiles")
+	pos, err := parseFlags(fs, tableUsage, args, stdout)
+	if err != nil {
+		return err
+	}
+	if len(pos) > 0 {
+		return usagef("table", "table: unexpected argument %q", pos[0])
+	}
+	if *format != "csv" && *format != "json" {
+		return usagef("table", "table: --format must be csv or json, not %q", *format)
+	}
+	if *agesFlag != "" && *agesFile != "" {
+		return usagef("table", "table: give --ages or --ages-file, not both")
+	}
+	var ages, centiles []float64
+	switch {
+	case *agesFlag != "":
+		if ages, err = parseAges(*agesFlag); err != nil {
+			return usagef("table", "table: %v", err)
+		}
+	case *agesFile != "":
+		if ages, err = readAgesFile(*agesFile); err != nil {
+			return err
+		}
+	}
+	if *centFlag != "" {
+		if centiles, err = parseNumbers(*centFlag, "--centiles"); err != nil {
+			return usagef("table", "table: %v", err)
+		}
+		for _, c := range centiles {
+			if !(c > 0 && c < 100) {
+				return usagef("table", "table: --centiles: %g is not strictly between 0 and 100", c)
+			}
+		}
+	}
+	ref, err := loadReference("table", *refPath)
+	if err != nil {
+		return err
+	}
+	strata, err := selectStrata(ref, *stratum)
+	if err != nil {
+		return err
+	}
+	prog := progress{w: stderr}
+	rows, cols, err := centileRows(ref, strata, ages, centiles, *velocity, func(st *curve.Stratum, out []float64) {
+		prog.printf("%s: %d ages outside the fitted range %s–%s left out (first: %s)",
+			stratumLabel(st.Name), len(out), shortAge(st.AgeMin), shortAge(st.AgeMax), ageText(out[0]))
+	})
+	if err != nil {
+		return err
+	}
+	if *format == "json" {
+		return writeRowsJSON(stdout, ref, cols, rows, *velocity)
+	}
+	return writeRowsCSV(stdout, cols, rows, *velocity)
+}
+
+// jsonNumber is a float that encodes NaN as null.
+type jsonNumber float64
+
+func (x jsonNumber) MarshalJSON() ([]byte, error) {
+	if math.IsNaN(float64(x)) || math.IsInf(float64(x), 0) {
+		return []byte("null"), nil
+	}
+	return []byte(num(float64(x))), nil
+}
+
+// writeRowsJSON writes table rows as one JSON document.
+func writeRowsJSON(w io.Writer, r *curve.Reference, centiles []float64, rows []tableRow, velocity bool) error {
+	type row struct {
+		Stratum string       `json:"stratum"`
+		Age     jsonNumber   `json:"age"`
+		Values  []jsonNumber `json:"values"`
+		L       *jsonNumber  `json:"L,omitempty"`
+		M       *jsonNumber  `json:"M,omitempty"`
+		S       *jsonNumber  `json:"S,omitempty"`
+	}
+	kind := "centiles"
+	unit := r.Unit
+	if velocity {
+		kind = "velocity"
+		unit = fmt.Sprintf("%s per %s", r.Unit, singular(r.AgeUnit))
+	}
+	doc := struct {
+		Kind     string    `json:"kind"`
+		Measure  string    `json:"measure"`
+		Unit     string    `json:"unit"`
+		AgeUnit  string    `json:"age_unit"`
+		Centiles []float64 `json:"centiles"`
+		Rows     []row     `json:"rows"`
+		Caution  string    `json:"caution"`
+	}{kind, r.Measure, unit, r.AgeUnit, centiles, nil, curve.Caution}
+	for _, tr := range rows {
+		o := row{Stratum: tr.stratum, Age: jsonNumber(tidy(tr.age))}
+		for _, v := range tr.values {
+			o.Values = append(o.Values, jsonNumber(v))
+		}
+		if tr.lms != nil {
+			l, m, s := jsonNumber(tr.lms.L), jsonNumber(tr.lms.M), jsonNumber(tr.lms.S)
+			o.L, o.M, o.S = &l, &m, &s
+		}
+		doc.Rows = append(doc.Rows, o)
+	}
+	enc := json.NewEncoder(w)
+	enc.SetIndent("", "  ")
+	return enc.Encode(doc)
+}
+
+// singular turns "months" into "month" for velocity units.
+func singular(unit string) string {
+	if n := len(unit); n > 1 && unit[n-1] == 's' {
+		return unit[:n-1]
+	}
+	return unit
+}

@@ -1,0 +1,404 @@
+package curve
+
+import (
+	"fmt"
+	"math"
+	"slices"
+	"sort"
+
+	"gonum.org/v1/gonum/stat/distuv"
+)
+
+// Diagnostics is the check of a reference against measurement data: how the
+// data fall among the chart centiles and how their z-scores depart from the
+// unit normal, per stratum and age group. It is data only; rendering it is
+// left to the caller.
+type Diagnostics struct {
+	Groups  []Group   // by stratum (reference order), then by age
+	Q       []QTests  // one per stratum with usable rows
+	Skipped []Skipped // rows not used, in row order, with the reason
+}
+
+// Skipped is a data row Check did not use.
+type Skipped struct {
+	Row    int // index into the data columns
+	Reason string
+}
+
+// Group is the check of one age group of one stratum.
+type Group struct {
+	Stratum string
+	// AgeLo and AgeHi are the band edges when bands were given, else the
+	// smallest and largest age in the group.
+	AgeLo, AgeHi float64
+	N            int
+	// Moments of the group's z-scores: mean, standard deviation (divisor
+	// N-1), skewness sqrt(b1) = m3/m2^1.5 and kurtosis b2 = m4/m2^2 (central
+	// moments with divisor N); 0, 1, 0 and 3 for a unit normal.
+	Mean, SD, Skew, Kurt float64
+	Shares               []Share // one per chart centile
+	Worm                 Worm
+}
+
+// Share compares the observed share of a group below one chart centile with
+// the nominal share Tau.
+type Share struct {
+	Tau      float64
+	Below    int     // rows with value < the fitted centile at their age
+	Observed float64 // Below/N
+	// Lo and Hi bound the Wilson (1927) 95% score interval of the share.
+	Lo, Hi float64
+	// Off is true when Tau lies outside [Lo, Hi]: the data disagree with the
+	// centile at the 5% level (pointwise; with many centiles and groups some
+	// disagreements are expected by chance).
+	Off bool
+}
+
+// Worm holds the points of a worm plot (van Buuren & Fredriks 2001) of one
+// group: a detrended normal Q-Q plot of the z-scores. Point i has the unit
+// normal quantile Normal[i] of plotting position (i+1/2)/N, the i-th
+// smallest z-score Z[i], and Deviation[i] = Z[i] - Normal[i]; [Lo[i], Hi[i]]
+// is the approximate pointwise 95% envelope of the deviation for unit-normal
+// data, ±1.96 sqrt(p(1-p)/N)/phi(Normal[i]) with p = Phi(Normal[i]), the
+// large-sample standard error of a sample quantile. Points outside the
+// envelope, or a worm with a systematic shape (a slope: wrong spread; a U:
+// skewness; an S: kurtosis), mean the reference does not describe the
+// group.
+type Worm struct {
+	Normal, Z, Deviation, Lo, Hi []float64
+}
+
+// QTests are the Q statistics of Royston & Wright (2000) for one stratum:
+// with G age groups of n_g z-scores each,
+//
+//	Q1 = sum_g n_g zbar_g^2                                  (means)
+//	Q2 = sum_g [(s_g^(2/3) - (1 - 2/(9(n_g-1)))) / sqrt(2/(9(n_g-1)))]^2
+//	                                                         (variances)
+//	Q3 = sum_g Zskew_g^2,  Q4 = sum_g Zkurt_g^2            (shape)
+//
+// where s_g^2 is the group variance, turned into a standard normal variate
+// by the Wilson–Hilferty cube root, Zskew is the D'Agostino normalising
+// transform of sqrt(b1) (groups of 8 or more) and Zkurt the Anscombe–Glynn
+// transform of b2 (groups of 20 or more). For z-scores that are unit normal
+// within each group each Q is approximately chi-squared on DF = the number of
+// groups contributing. These formulas are from memory of the papers. Royston
+// & Wright reduce DF by the degrees of freedom of the fitted curves, which a
+// quantile-regression reference does not have in that form; DF here is the
+// number of groups, exact for data independent of the fit and conservative
+// (P too large) when checking the data the reference was fitted to.
+type QTests struct {
+	Stratum                            string
+	Groups                             int
+	Mean, Variance, Skewness, Kurtosis QStat
+}
+
+// QStat is one Q statistic with its chi-squared degrees of freedom and
+// upper-tail P value; DF 0 (no group large enough) gives NaN Q and P.
+type QStat struct {
+	Q  float64
+	DF int
+	P  float64
+}
+
+// Settings of Check.
+const (
+	// diagRowsPerGroup and diagMaxGroups set the default age groups: as many
+	// equal-count groups as give at least 100 rows each, at most 10. 100
+	// rows make the 3rd and 97th centile shares and the kurtosis transform
+	// (valid from 20 rows) meaningful; our choice.
+	diagRowsPerGroup = 100
+	diagMaxGroups    = 10
+	// wilsonLevel is the coverage of the share intervals (common practice).
+	wilsonLevel = 0.95
+	// skewMinN and kurtMinN are the smallest groups for which the
+	// D'Agostino and Anscombe–Glynn transforms are valid (as stated by
+	// D'Agostino, Belanger & D'Agostino 1990, from memory).
+	skewMinN, kurtMinN = 8, 20
+)
+
+// Check scores the rows of d against r and returns the diagnostics.
+//
+// Rows are grouped per stratum by age. bands, when not nil, gives the age
+// band edges, strictly increasing: band i is [bands[i], bands[i+1]), the
+// last one closed; bands holding no rows are left out. nil bands give equal-
+// count groups per stratum (as many as give 100 rows each, at most 10, at
+// least 1). Rows that cannot be used are listed in Skipped with the reason,
+// never dropped silently: an unknown stratum, an age outside the stratum's
+// fitted range or outside the bands, a value that is not finite, a
+// non-positive weight. Weights are otherwise ignored: the shares and tests
+// count rows.
+//
+// Check returns an error wrapping ErrData when the columns of d differ in
+// length or bands are not finite and strictly increasing.
+//
+// References:
+//   - Wilson E B (1927). Probable inference, the law of succession, and
+//     statistical inference. Journal of the American Statistical
+//     Association 22, 209–212.
+//   - Royston P, Wright E M (2000). Goodness-of-fit statistics for
+//     age-specific reference intervals. Statistics in Medicine 19,
+//     2943–2962.
+//   - van Buuren S, Fredriks M (2001). Worm plot: a simple diagnostic device
+//     for modelling growth reference curves. Statistics in Medicine 20,
+//     1259–1277.
+//   - D'Agostino R B, Belanger A, D'Agostino R B Jr (1990). A suggestion for
+//     using powerful and informative tests of normality. The American
+//     Statistician 44, 316–321.
+//   - Anscombe F J, Glynn W J (1983). Distribution of the kurtosis
+//     statistic b2 for normal samples. Biometrika 70, 227–234.
+//   - Wilson E B, Hilferty M M (1931). The distribution of chi-square.
+//     Proceedings of the National Academy of Sciences 17, 684–688.
+func Check(r *Reference, d *Data, bands []float64) (*Diagnostics, error) {
+	n := len(d.Age)
+	if len(d.Value) != n || (d.Stratum != nil && len(d.Stratum) != n) || (d.Weight != nil && len(d.Weight) != n) {
+		return nil, fmt.Errorf("%w: %d ages, %d values, %d strata, %d weights", ErrData, n, len(d.Value), len(d.Stratum), len(d.Weight))
+	}
+	if bands != nil {
+		if len(bands) < 2 {
+			return nil, fmt.Errorf("%w: %d band edges, need at least 2", ErrData, len(bands))
+		}
+		for i, b := range bands {
+			if !isFin(b) || (i > 0 && !(b > bands[i-1])) {
+				return nil, fmt.Errorf("%w: band edges must be finite and strictly increasing (edge %d is %g)", ErrData, i, b)
+			}
+		}
+	}
+
+	type row struct {
+		age, z float64
+		below  []bool // per chart centile
+	}
+	perStratum := make(map[*Stratum][]row)
+	out := &Diagnostics{}
+	var ws scoreSpace
+	for i := range n {
+		name := ""
+		if d.Stratum != nil {
+			name = d.Stratum[i]
+		}
+		if d.Weight != nil && !(d.Weight[i] > 0) {
+			out.Skipped = append(out.Skipped, Skipped{i, fmt.Sprintf("weight %g is not positive", d.Weight[i])})
+			continue
+		}
+		st, b, err := r.lookup(name)
+		if err == nil && bands != nil && !(d.Age[i] >= bands[0] && d.Age[i] <= bands[len(bands)-1]) {
+			err = fmt.Errorf("age %g outside the bands [%g, %g]", d.Age[i], bands[0], bands[len(bands)-1])
+		}
+		var s Score
+		if err == nil {
+			s, err = ws.score(r, st, b, d.Age[i], d.Value[i])
+		}
+		if err != nil {
+			out.Skipped = append(out.Skipped, Skipped{i, err.Error()})
+			continue
+		}
+		below := make([]bool, len(st.Chart))
+		for j, c := range st.Chart {
+			below[j] = d.Value[i] < ws.q[gridIndex(st.Taus, c)]
+		}
+		perStratum[st] = append(perStratum[st], row{d.Age[i], s.Z, below})
+	}
+
+	for si := range r.Strata {
+		st := &r.Strata[si]
+		rows := perStratum[st]
+		if len(rows) == 0 {
+			continue
+		}
+		slices.SortStableFunc(rows, func(a, b row) int {
+			switch {
+			case a.age < b.age:
+				return -1
+			case a.age > b.age:
+				return 1
+			}
+			return 0
+		})
+		var cuts []int // group g is rows[cuts[g]:cuts[g+1]]
+		var edges [][2]float64
+		if bands != nil {
+			for b := 0; b+1 < len(bands); b++ {
+				lo := sort.Search(len(rows), func(i int) bool { return rows[i].age >= bands[b] })
+				hi := sort.Search(len(rows), func(i int) bool { return rows[i].age >= bands[b+1] })
+				if b+2 == len(bands) {
+					hi = len(rows)
+				}
+				if hi > lo {
+					cuts = append(cuts, lo, hi)
+					edges = append(edges, [2]float64{bands[b], bands[b+1]})
+				}
+			}
+		} else {
+			g := min(max(len(rows)/diagRowsPerGroup, 1), diagMaxGroups)
+			for k := range g {
+				lo, hi := k*len(rows)/g, (k+1)*len(rows)/g
+				cuts = append(cuts, lo, hi)
+				edges = append(edges, [2]float64{rows[lo].age, rows[hi-1].age})
+			}
+		}
+		var groups []Group
+		for k := 0; k < len(cuts); k += 2 {
+			gr := rows[cuts[k]:cuts[k+1]]
+			z := make([]float64, len(gr))
+			for i, rw := range gr {
+				z[i] = rw.z
+			}
+			g := Group{Stratum: st.Name, AgeLo: edges[k/2][0], AgeHi: edges[k/2][1], N: len(gr)}
+			g.Mean, g.SD, g.Skew, g.Kurt = moments(z)
+			for j, c := range st.Chart {
+				below := 0
+				for _, rw := range gr {
+					if rw.below[j] {
+						below++
+					}
+				}
+				lo, hi := wilson(below, len(gr), wilsonLevel)
+				g.Shares = append(g.Shares, Share{
+					Tau: c, Below: below, Observed: float64(below) / float64(len(gr)),
+					Lo: lo, Hi: hi, Off: c < lo || c > hi,
+				})
+			}
+			g.Worm = worm(z)
+			groups = append(groups, g)
+		}
+		out.Groups = append(out.Groups, groups...)
+		out.Q = append(out.Q, qTests(st.Name, groups))
+	}
+	return out, nil
+}
+
+// moments returns the mean, the standard deviation (divisor n-1, NaN for
+// one value), sqrt(b1) and b2 of z (NaN when the values are all equal).
+func moments(z []float64) (mean, sd, skew, kurt float64) {
+	n := float64(len(z))
+	for _, v := range z {
+		mean += v
+	}
+	mean /= n
+	var m2, m3, m4 float64
+	for _, v := range z {
+		d := v - mean
+		d2 := d * d
+		m2 += d2
+		m3 += d2 * d
+		m4 += d2 * d2
+	}
+	sd = math.Sqrt(m2 / (n - 1))
+	if len(z) < 2 {
+		sd = math.NaN()
+	}
+	m2, m3, m4 = m2/n, m3/n, m4/n
+	return mean, sd, m3 / math.Pow(m2, 1.5), m4 / (m2 * m2)
+}
+
+// wilson returns the Wilson (1927) score interval for a binomial share of
+// k successes in n trials at the given coverage:
+//
+//	(p + c^2/2n ± c sqrt(p(1-p)/n + c^2/4n^2)) / (1 + c^2/n),  p = k/n,
+//
+// c the normal quantile of (1+level)/2. n = 0 gives [0, 1].
+func wilson(k, n int, level float64) (lo, hi float64) {
+	if n == 0 {
+		return 0, 1
+	}
+	c := normZ((1 + level) / 2)
+	nf := float64(n)
+	p := float64(k) / nf
+	c2 := c * c
+	den := 1 + c2/nf
+	mid := (p + c2/(2*nf)) / den
+	half := c / den * math.Sqrt(p*(1-p)/nf+c2/(4*nf*nf))
+	return max(mid-half, 0), min(mid+half, 1)
+}
+
+// worm returns the worm-plot points of the z-scores (z is not modified).
+func worm(z []float64) Worm {
+	n := len(z)
+	w := Worm{
+		Normal: make([]float64, n), Z: slices.Clone(z), Deviation: make([]float64, n),
+		Lo: make([]float64, n), Hi: make([]float64, n),
+	}
+	slices.Sort(w.Z)
+	c := normZ((1 + wilsonLevel) / 2)
+	for i := range n {
+		p := (float64(i) + 0.5) / float64(n) // Hazen plotting position
+		u := normZ(p)
+		w.Normal[i] = u
+		w.Deviation[i] = w.Z[i] - u
+		se := math.Sqrt(p*(1-p)/float64(n)) / distuv.UnitNormal.Prob(u)
+		w.Lo[i], w.Hi[i] = -c*se, c*se
+	}
+	return w
+}
+
+// qTests computes the Royston–Wright Q statistics over the groups.
+func qTests(name string, groups []Group) QTests {
+	var q [4]float64
+	var df [4]int
+	for _, g := range groups {
+		n := float64(g.N)
+		q[0] += n * g.Mean * g.Mean
+		df[0]++
+		if g.N >= 2 && isFin(g.SD) {
+			e := varZ(g.SD, g.N)
+			q[1] += e * e
+			df[1]++
+		}
+		if g.N >= skewMinN && isFin(g.Skew) {
+			e := skewZ(g.Skew, g.N)
+			q[2] += e * e
+			df[2]++
+		}
+		if g.N >= kurtMinN && isFin(g.Kurt) {
+			e := kurtZ(g.Kurt, g.N)
+			q[3] += e * e
+			df[3]++
+		}
+	}
+	var s [4]QStat
+	for i := range s {
+		s[i] = QStat{Q: q[i], DF: df[i], P: math.NaN()}
+		if df[i] == 0 {
+			s[i].Q = math.NaN()
+			continue
+		}
+		s[i].P = distuv.ChiSquared{K: float64(df[i])}.Survival(q[i])
+	}
+	return QTests{Stratum: name, Groups: len(groups), Mean: s[0], Variance: s[1], Skewness: s[2], Kurtosis: s[3]}
+}
+
+// varZ is the Wilson & Hilferty (1931) cube-root transform of the sample
+// variance sd^2 of n unit-normal values ((n-1) sd^2 is chi-squared on n-1
+// degrees of freedom) to an approximately standard normal variate.
+func varZ(sd float64, n int) float64 {
+	v := 2 / (9 * float64(n-1))
+	return (math.Cbrt(sd*sd) - (1 - v)) / math.Sqrt(v)
+}
+
+// skewZ is D'Agostino's transform of the sample skewness sqrt(b1) of n
+// normal values to an approximately standard normal variate (n >= 8), as
+// given by D'Agostino, Belanger & D'Agostino (1990), from memory.
+func skewZ(sb1 float64, n int) float64 {
+	nf := float64(n)
+	y := sb1 * math.Sqrt((nf+1)*(nf+3)/(6*(nf-2)))
+	beta2 := 3 * (nf*nf + 27*nf - 70) * (nf + 1) * (nf + 3) / ((nf - 2) * (nf + 5) * (nf + 7) * (nf + 9))
+	w2 := -1 + math.Sqrt(2*(beta2-1))
+	delta := 1 / math.Sqrt(math.Log(math.Sqrt(w2)))
+	alpha := math.Sqrt(2 / (w2 - 1))
+	ya := y / alpha
+	return delta * math.Log(ya+math.Sqrt(ya*ya+1))
+}
+
+// kurtZ is the Anscombe & Glynn (1983) transform of the sample kurtosis b2
+// of n normal values to an approximately standard normal variate (n >= 20),
+// from memory.
+func kurtZ(b2 float64, n int) float64 {
+	nf := float64(n)
+	mean := 3 * (nf - 1) / (nf + 1)
+	variance := 24 * nf * (nf - 2) * (nf - 3) / ((nf + 1) * (nf + 1) * (nf + 3) * (nf + 5))
+	x := (b2 - mean) / math.Sqrt(variance)
+	sb1 := 6 * (nf*nf - 5*nf + 2) / ((nf + 7) * (nf + 9)) * math.Sqrt(6*(nf+3)*(nf+5)/(nf*(nf-2)*(nf-3)))
+	a := 6 + 8/sb1*(2/sb1+math.Sqrt(1+4/(sb1*sb1)))
+	t := (1 - 2/a) / (1 + x*math.Sqrt(2/(a-4)))
+	return ((1 - 2/(9*a)) - math.Cbrt(t)) / math.Sqrt(2/(9*a))
+}

@@ -1,0 +1,571 @@
+package curve
+
+import (
+	"cmp"
+	"crypto/sha256"
+	"encoding/binary"
+	"encoding/hex"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"runtime"
+	"slices"
+	"sync"
+	"time"
+)
+
+// Errors returned by Fit and AgeScale.Apply, besides ErrData for unusable
+// rows. They are wrapped with context (the row, stratum or setting
+// concerned); test with errors.Is.
+var (
+	ErrSettings  = errors.New("curve: invalid fit settings")
+	ErrAgeScale  = errors.New("curve: invalid age scale")
+	ErrAgeDomain = errors.New("curve: age outside the domain of the age scale")
+	ErrBootstrap = errors.New("curve: too many bootstrap replicates failed")
+)
+
+// Choices for the string fields of Settings. The empty string means the
+// first (default) choice of each group.
+const (
+	PenaltyAuto  = "auto"  // lambda chosen by the criterion
+	PenaltyNone  = "none"  // no penalty
+	PenaltyFixed = "fixed" // Settings.Lambda
+
+	CriterionSIC   = "sic"   // Schwarz-type information criterion
+	CriterionCV    = "cv"    // K-fold cross-validated check loss
+	CriterionFixed = "fixed" // recorded when nothing was chosen
+
+	NonCrossConstrain = "constrain" // stepwise constraints outward from the median
+	NonCrossRearrange = "rearrange" // unconstrained fits, coefficients sorted across tau
+)
+
+// NoKnots as Settings.Knots asks for no interior knots: each curve is a
+// single polynomial of the given degree in T(age).
+const NoKnots = -1
+
+// Defaults used for the zero fields of Settings.
+const (
+	DefaultDegree       = 3  // cubic B-splines
+	DefaultPenaltyOrder = 2  // L1 on second differences: total variation of the slope
+	DefaultFolds        = 5  // cross-validation folds (common practice: 5 or 10)
+	DefaultGuardMin     = 5  // expected count beyond a centile per window (common practice: 5–10)
+	DefaultGuardWindows = 10 // guard windows, equal width in T(age)
+	DefaultBandPoints   = 41 // ages of the bootstrap band grid
+	MinReplicates       = 20 // fewest bootstrap replicates that give a 95% interval
+)
+
+// defaultCentiles is the default chart set, in percent.
+var defaultCentiles = []float64{3, 10, 25, 50, 75, 90, 97}
+
+// Settings tune Fit. The zero value, and nil, mean the documented defaults.
+type Settings struct {
+	// Centiles is the chart set in percent, each strictly between 0 and 100;
+	// nil means 3, 10, 25, 50, 75, 90, 97.
+	Centiles []float64
+	// Degree of the B-splines; 0 means DefaultDegree (cubic).
+	Degree int
+	// AgeScale is the age transformation of the basis; the zero value is
+	// the identity.
+	AgeScale AgeScale
+
+	// Knots is the number of interior knots, placed at quantiles of the
+	// transformed ages of each stratum: 0 chooses it by Criterion from a
+	// small candidate set, NoKnots asks for none.
+	Knots int
+	// KnotAges, when not empty, are the interior knots in age units (used
+	// for every stratum, so they must lie inside each stratum's age range);
+	// Knots must then be 0.
+	KnotAges []float64
+	// Penalty selects the L1 difference penalty on the coefficients:
+	// PenaltyAuto, PenaltyNone or PenaltyFixed. The empty string means
+	// PenaltyFixed when Lambda > 0 and PenaltyNone otherwise: the default
+	// is an unpenalised regression spline whose knot count the criterion
+	// chooses, and fixed knots alone give a plain unpenalised fit.
+	// PenaltyAuto scores lambda over the median and the chart centiles
+	// even with MedianOnly: the penalty acts hardest on the outer
+	// centiles, whose check loss weighs the data by about min(tau, 1-tau),
+	// and in the simulation of recovery_test.go (n = 2000, 10 knots) a
+	// lambda scored at the median alone more than doubled their largest z
+	// error (0.54 against 0.25; 0.21 unpenalised with chosen knots).
+	Penalty string
+	// Lambda is the penalty weight for PenaltyFixed, in the units of the
+	// summed sample weights (the solver's objective). Smoothness.Lambda of
+	// a fit can be passed back here to reproduce it on the same data.
+	Lambda float64
+	// PenaltyOrder is the difference order d of the penalty sum_j |Δ^d b_j|;
+	// 0 means DefaultPenaltyOrder = 2. With order 2 the penalty is the total
+	// variation of the coefficient sequence's slope, so a large lambda pulls
+	// each curve towards a straight line in T(age) (its null space) and a
+	// moderate one gives a coefficient polyline with few kinks, smoothed by
+	// the B-splines: the discrete analogue of the total-variation penalty of
+	// Koenker, Ng & Portnoy (1994). Order 1 would pull curves towards
+	// constants (flattening growth), order 3 towards quadratics.
+	PenaltyOrder int
+
+	// Criterion chooses what is automatic: CriterionSIC (default) or
+	// CriterionCV.
+	Criterion string
+	// Folds for CriterionCV; 0 means DefaultFolds. Folds are formed of
+	// whole subjects when Data.Subject is given.
+	Folds int
+	// MedianOnly scores the criterion at the median alone instead of
+	// summing it over the median and the chart centiles. It is faster but
+	// tends to under-fit the outer centiles, whose shape the median does
+	// not see: in the simulation of recovery_test.go at n = 20,000 it chose
+	// one interior knot instead of two and raised the root-mean-square z
+	// error of the chart centiles from 0.041 to 0.055.
+	MedianOnly bool
+
+	// NonCross is NonCrossConstrain (default) or NonCrossRearrange.
+	NonCross string
+
+	// GuardMin is the fewest expected observations beyond a centile in an
+	// age window (n_window * min(tau, 1-tau)); 0 means DefaultGuardMin.
+	// Chart centiles below it are flagged, extreme grid taus dropped.
+	GuardMin float64
+	// GuardWindows is the number of age windows of the guard, of equal
+	// width in T(age); 0 means DefaultGuardWindows.
+	GuardWindows int
+
+	// Bootstrap is the number of bootstrap replicates for the chart bands;
+	// 0 means none, otherwise at least MinReplicates.
+	Bootstrap int
+	// BandPoints is the number of equally spaced ages of the bands; 0 means
+	// DefaultBandPoints.
+	BandPoints int
+	// Seed seeds the bootstrap and the cross-validation folds; every seed,
+	// 0 included, gives reproducible results.
+	Seed uint64
+
+	// Workers bounds the solver calls run at once; 0 means
+	// runtime.GOMAXPROCS(0). Results do not depend on it.
+	Workers int
+	// Progress receives progress lines "growband: ..." for long work; nil
+	// means silence.
+	Progress io.Writer
+
+	// Measure, Unit and AgeUnit are copied into the Reference.
+	Measure, Unit, AgeUnit string
+}
+
+// config is Settings resolved: defaults filled in and choices checked.
+type config struct {
+	chart      []float64 // chart taus, increasing
+	degree     int
+	scale      AgeScale
+	knots      int       // NoKnots, 0 (auto) or a count
+	knotT      []float64 // explicit interior knots on the T scale, or nil
+	knotAges   []float64
+	penalty    string // PenaltyAuto, PenaltyNone or PenaltyFixed
+	lambda     float64
+	order      int
+	criterion  string
+	folds      int
+	medianOnly bool
+	nonCross   string
+	guardMin   float64
+	windows    int
+	boot       int
+	bandPoints int
+	seed       uint64
+	workers    int
+	prog       *progress
+}
+
+// maxDegree bounds Settings.Degree; higher degrees buy nothing for growth
+// curves and make the design rows wide.
+const maxDegree = 7
+
+func (s *Settings) resolve() (*config, error) {
+	if s == nil {
+		s = &Settings{}
+	}
+	bad := func(format string, args ...any) (*config, error) {
+		return nil, fmt.Errorf("%w: "+format, append([]any{ErrSettings}, args...)...)
+	}
+	c := &config{seed: s.Seed, medianOnly: s.MedianOnly, prog: &progress{w: s.Progress}}
+
+	cent := s.Centiles
+	if cent == nil {
+		cent = defaultCentiles
+	}
+	if len(cent) == 0 {
+		return bad("no chart centiles")
+	}
+	cent = slices.Clone(cent)
+	slices.Sort(cent)
+	for i, p := range cent {
+		if !(p > 0 && p < 100) {
+			return bad("centile %v not strictly between 0 and 100", p)
+		}
+		if i > 0 && p == cent[i-1] {
+			return bad("centile %v given twice", p)
+		}
+		c.chart = append(c.chart, p/100)
+	}
+
+	switch {
+	case s.Degree == 0:
+		c.degree = DefaultDegree
+	case s.Degree < 0 || s.Degree > maxDegree:
+		return bad("degree %d not in 1..%d", s.Degree, maxDegree)
+	default:
+		c.degree = s.Degree
+	}
+
+	if err := s.AgeScale.validate(); err != nil {
+		return nil, err
+	}
+	c.scale = s.AgeScale.normal()
+
+	if s.Knots < NoKnots {
+		return bad("knot count %d", s.Knots)
+	}
+	c.knots = s.Knots
+	if len(s.KnotAges) > 0 {
+		if s.Knots != 0 {
+			return bad("give either a knot count or knot ages, not both")
+		}
+		c.knotAges = slices.Clone(s.KnotAges)
+		for i, a := range c.knotAges {
+			t, err := c.scale.Apply(a)
+			if err != nil {
+				return nil, fmt.Errorf("%w: knot age %v: %w", ErrSettings, a, err)
+			}
+			if i > 0 && !(a > c.knotAges[i-1]) {
+				return bad("knot ages must be strictly increasing (%v after %v)", a, c.knotAges[i-1])
+			}
+			c.knotT = append(c.knotT, t)
+		}
+	}
+
+	if math.IsNaN(s.Lambda) || math.IsInf(s.Lambda, 0) || s.Lambda < 0 {
+		return bad("lambda %v must be finite and non-negative", s.Lambda)
+	}
+	c.lambda = s.Lambda
+	switch s.Penalty {
+	case "":
+		c.penalty = PenaltyNone
+		if s.Lambda > 0 {
+			c.penalty = PenaltyFixed
+		}
+	case PenaltyAuto, PenaltyNone:
+		if s.Lambda > 0 {
+			return bad("penalty %q takes no lambda", s.Penalty)
+		}
+		c.penalty = s.Penalty
+	case PenaltyFixed:
+		c.penalty = PenaltyFixed
+		if s.Lambda == 0 {
+			c.penalty = PenaltyNone
+		}
+	default:
+		return bad("unknown penalty %q (want %q, %q or %q)", s.Penalty, PenaltyAuto, PenaltyNone, PenaltyFixed)
+	}
+
+	switch {
+	case s.PenaltyOrder == 0:
+		c.order = DefaultPenaltyOrder
+	case s.PenaltyOrder < 0 || s.PenaltyOrder > c.degree+1:
+		return bad("penalty order %d not in 1..%d", s.PenaltyOrder, c.degree+1)
+	default:
+		c.order = s.PenaltyOrder
+	}
+
+	switch s.Criterion {
+	case "", CriterionSIC:
+		c.criterion = CriterionSIC
+	case CriterionCV:
+		c.criterion = CriterionCV
+	default:
+		return bad("unknown criterion %q (want %q or %q)", s.Criterion, CriterionSIC, CriterionCV)
+	}
+	switch {
+	case s.Folds == 0:
+		c.folds = DefaultFolds
+	case s.Folds < 2:
+		return bad("%d folds; cross-validation needs at least 2", s.Folds)
+	default:
+		c.folds = s.Folds
+	}
+
+	switch s.NonCross {
+	case "", NonCrossConstrain:
+		c.nonCross = NonCrossConstrain
+	case NonCrossRearrange:
+		c.nonCross = NonCrossRearrange
+	default:
+		return bad("unknown non-crossing mode %q (want %q or %q)", s.NonCross, NonCrossConstrain, NonCrossRearrange)
+	}
+
+	switch {
+	case s.GuardMin == 0:
+		c.guardMin = DefaultGuardMin
+	case !(s.GuardMin > 0) || math.IsInf(s.GuardMin, 0):
+		return bad("guard minimum %v must be positive", s.GuardMin)
+	default:
+		c.guardMin = s.GuardMin
+	}
+	switch {
+	case s.GuardWindows == 0:
+		c.windows = DefaultGuardWindows
+	case s.GuardWindows < 0:
+		return bad("%d guard windows", s.GuardWindows)
+	default:
+		c.windows = s.GuardWindows
+	}
+
+	switch {
+	case s.Bootstrap == 0:
+	case s.Bootstrap < MinReplicates:
+		return bad("%d bootstrap replicates; give 0 or at least %d", s.Bootstrap, MinReplicates)
+	default:
+		c.boot = s.Bootstrap
+	}
+	switch {
+	case s.BandPoints == 0:
+		c.bandPoints = DefaultBandPoints
+	case s.BandPoints < 2:
+		return bad("%d band points; need at least 2", s.BandPoints)
+	default:
+		c.bandPoints = s.BandPoints
+	}
+
+	switch {
+	case s.Workers == 0:
+		c.workers = runtime.GOMAXPROCS(0)
+	case s.Workers < 0:
+		return bad("%d workers", s.Workers)
+	default:
+		c.workers = s.Workers
+	}
+	return c, nil
+}
+
+// Fit builds a growth reference from d. Each stratum is fitted separately
+// (in parallel, see Settings.Workers):
+//
+//  1. Rows are sorted by transformed age t = T(age) so the B-spline design
+//     is banded; sampling weights become solver weights.
+//  2. The interior knots (at quantiles of t, spline.QuantileKnots, clamped
+//     at the stratum's range of t) and the penalty weight are fixed by the
+//     settings or chosen by the criterion (see smooth.go).
+//  3. The sample-size guard flags chart centiles with too few expected
+//     observations beyond them in some age window and drops extreme grid
+//     taus the sample cannot support (guard.go).
+//  4. The tau grid — the chart taus, 0.01, 0.02, ..., 0.99, and those of
+//     0.001, 0.005, 0.995, 0.999 the guard keeps — is fitted without
+//     crossing (noncross.go).
+//  5. With Settings.Bootstrap, pointwise 95% bands are added for the chart
+//     centiles (bootstrap.go).
+//
+// Strata appear sorted by name. InputHash is the hex SHA-256 of the rows in
+// input order, each written as age, value and weight (1 when Data.Weight is
+// nil) as big-endian IEEE-754 float64 bits, then the stratum and the subject
+// label each as a big-endian uint32 byte length followed by its UTF-8 bytes
+// (empty when absent). Every row is used: rows Fit cannot use are errors.
+//
+// Fit returns an error wrapping ErrData for bad data (mismatched column
+// lengths, NaN or infinite ages or values, non-positive or non-finite
+// weights, ages outside the age scale's domain — each naming the row,
+// numbered from 1 — or a stratum too small or with a single age), one
+// wrapping ErrSettings or ErrAgeScale for bad settings, and solver errors
+// wrapped with the stratum and tau concerned. It does not panic on user
+// input.
+func Fit(d *Data, s *Settings) (*Reference, error) {
+	c, err := s.resolve()
+	if err != nil {
+		return nil, err
+	}
+	groups, hash, err := prepare(d, c)
+	if err != nil {
+		return nil, err
+	}
+	strata, err := fitStrata(groups, c)
+	if err != nil {
+		return nil, err
+	}
+	ref := &Reference{
+		Format:    "growband-reference",
+		Version:   FormatVersion,
+		AgeScale:  c.scale,
+		Degree:    c.degree,
+		Created:   time.Now().UTC().Truncate(time.Second),
+		InputHash: hash,
+		Caution:   Caution,
+		Strata:    strata,
+	}
+	if s != nil {
+		ref.Measure, ref.Unit, ref.AgeUnit = s.Measure, s.Unit, s.AgeUnit
+	}
+	return ref, nil
+}
+
+// rows is one stratum's data sorted by transformed age.
+type rows struct {
+	name  string
+	age   []float64 // ages, increasing
+	t     []float64 // T(age), increasing
+	y     []float64
+	w     []float64
+	subj  []int // subject index per row in 0..nsubj-1, or nil
+	nsubj int
+}
+
+// weight returns the summed weights and Kish's effective sample size
+// (sum w)^2 / sum w^2, which is n for equal weights.
+func (r *rows) weight() (total, neff float64) {
+	sq := 0.0
+	for _, w := range r.w {
+		total += w
+		sq += w * w
+	}
+	return total, total * total / sq
+}
+
+// prepare validates d, groups it by stratum (sorted by name) and sorts each
+// group by transformed age. It also returns the input hash.
+func prepare(d *Data, c *config) ([]*rows, string, error) {
+	if d == nil || len(d.Age) == 0 {
+		return nil, "", fmt.Errorf("%w: no rows", ErrData)
+	}
+	n := len(d.Age)
+	col := func(name string, l int) error {
+		if l != n {
+			return fmt.Errorf("%w: %d ages but %d %s", ErrData, n, l, name)
+		}
+		return nil
+	}
+	if err := col("values", len(d.Value)); err != nil {
+		return nil, "", err
+	}
+	if d.Weight != nil {
+		if err := col("weights", len(d.Weight)); err != nil {
+			return nil, "", err
+		}
+	}
+	if d.Stratum != nil {
+		if err := col("stratum labels", len(d.Stratum)); err != nil {
+			return nil, "", err
+		}
+	}
+	if d.Subject != nil {
+		if err := col("subject ids", len(d.Subject)); err != nil {
+			return nil, "", err
+		}
+	}
+
+	t := make([]float64, n)
+	byName := map[string][]int{}
+	for i := range n {
+		a, v := d.Age[i], d.Value[i]
+		if math.IsNaN(a) || math.IsInf(a, 0) {
+			return nil, "", fmt.Errorf("%w: row %d: age is %v", ErrData, i+1, a)
+		}
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return nil, "", fmt.Errorf("%w: row %d: value is %v", ErrData, i+1, v)
+		}
+		if d.Weight != nil {
+			if w := d.Weight[i]; !(w > 0) || math.IsInf(w, 0) {
+				return nil, "", fmt.Errorf("%w: row %d: weight %v must be positive and finite", ErrData, i+1, w)
+			}
+		}
+		ti, err := c.scale.Apply(a)
+		if err != nil {
+			return nil, "", fmt.Errorf("%w: row %d: %w", ErrData, i+1, err)
+		}
+		t[i] = ti
+		name := ""
+		if d.Stratum != nil {
+			name = d.Stratum[i]
+		}
+		byName[name] = append(byName[name], i)
+	}
+
+	names := make([]string, 0, len(byName))
+	for name := range byName {
+		names = append(names, name)
+	}
+	slices.Sort(names)
+	groups := make([]*rows, len(names))
+	for g, name := range names {
+		idx := byName[name]
+		// Stable order by age: ties keep input order, so the fit does not
+		// depend on map iteration or sort internals.
+		slices.SortStableFunc(idx, func(i, j int) int { return cmp.Compare(t[i], t[j]) })
+		r := &rows{
+			name: name,
+			age:  make([]float64, len(idx)),
+			t:    make([]float64, len(idx)),
+			y:    make([]float64, len(idx)),
+			w:    make([]float64, len(idx)),
+		}
+		var ids map[string]int
+		if d.Subject != nil {
+			r.subj = make([]int, len(idx))
+			ids = map[string]int{}
+		}
+		for k, i := range idx {
+			r.age[k], r.t[k], r.y[k], r.w[k] = d.Age[i], t[i], d.Value[i], 1
+			if d.Weight != nil {
+				r.w[k] = d.Weight[i]
+			}
+			if ids != nil {
+				id, ok := ids[d.Subject[i]]
+				if !ok {
+					id = len(ids)
+					ids[d.Subject[i]] = id
+				}
+				r.subj[k] = id
+			}
+		}
+		r.nsubj = len(ids)
+		if !(r.t[0] < r.t[len(idx)-1]) {
+			return nil, "", fmt.Errorf("%w: stratum %q: all %d ages are equal", ErrData, name, len(idx))
+		}
+		groups[g] = r
+	}
+	return groups, inputHash(d), nil
+}
+
+// inputHash implements the canonical form documented at Fit.
+func inputHash(d *Data) string {
+	h := sha256.New()
+	var buf []byte
+	for i := range d.Age {
+		buf = buf[:0]
+		w := 1.0
+		if d.Weight != nil {
+			w = d.Weight[i]
+		}
+		buf = binary.BigEndian.AppendUint64(buf, math.Float64bits(d.Age[i]))
+		buf = binary.BigEndian.AppendUint64(buf, math.Float64bits(d.Value[i]))
+		buf = binary.BigEndian.AppendUint64(buf, math.Float64bits(w))
+		for _, col := range [][]string{d.Stratum, d.Subject} {
+			label := ""
+			if col != nil {
+				label = col[i]
+			}
+			buf = binary.BigEndian.AppendUint32(buf, uint32(len(label)))
+			buf = append(buf, label...)
+		}
+		h.Write(buf)
+	}
+	return hex.EncodeToString(h.Sum(nil))
+}
+
+// progress writes "growband: ..." lines from many goroutines.
+type progress struct {
+	mu sync.Mutex
+	w  io.Writer
+}
+
+func (p *progress) printf(format string, args ...any) {
+	if p == nil || p.w == nil {
+		return
+	}
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	fmt.Fprintf(p.w, "growband: "+format+"\n", args...)
+}

@@ -1,0 +1,260 @@
+package curve
+
+import (
+	"fmt"
+	"math"
+	"sort"
+	"strings"
+
+	"growband/spline"
+)
+
+// ImplausibleZ is the |z| beyond which a score is flagged FlagImplausible:
+// common practice in growth monitoring treats |z| > 5 as a probable
+// measurement or entry error rather than a real extreme.
+const ImplausibleZ = 5
+
+// ScoreFlags is a set of remarks on one score.
+type ScoreFlags uint8
+
+// The remarks Score can make.
+const (
+	// FlagBeyondTail: the measurement lies outside the outermost fitted
+	// centiles, so its z-score comes from the tail rule (see Score) rather
+	// than from interpolation between fitted curves.
+	FlagBeyondTail ScoreFlags = 1 << iota
+	// FlagImplausible: |z| > ImplausibleZ.
+	FlagImplausible
+	// FlagSparse: the measurement lies beyond a centile that the
+	// sample-size guard flagged at this age (Stratum.Flags): few
+	// observations supported the curve there.
+	FlagSparse
+	// FlagUnscored: ScoreAll could not score the row (see its error).
+	FlagUnscored
+)
+
+var flagNames = []struct {
+	f    ScoreFlags
+	name string
+}{
+	{FlagBeyondTail, "beyond-tail"},
+	{FlagImplausible, "implausible"},
+	{FlagSparse, "sparse"},
+	{FlagUnscored, "unscored"},
+}
+
+// Has reports whether every flag in g is set in f.
+func (f ScoreFlags) Has(g ScoreFlags) bool { return f&g == g }
+
+// String returns the flag names joined by ";", or "" for no flags.
+func (f ScoreFlags) String() string {
+	var parts []string
+	for _, fn := range flagNames {
+		if f&fn.f != 0 {
+			parts = append(parts, fn.name)
+		}
+	}
+	return strings.Join(parts, ";")
+}
+
+// MarshalText writes String, so flags read as words in JSON.
+func (f ScoreFlags) MarshalText() ([]byte, error) { return []byte(f.String()), nil }
+
+// Score is the place of one measurement in a reference.
+type Score struct {
+	Centile float64    // percent, 100*Phi(Z)
+	Z       float64    // z-score (SDS)
+	Flags   ScoreFlags // remarks; zero when there are none
+}
+
+// Score places a measurement of the given value at the given age in the
+// stratum's fitted centiles and returns its z-score and centile.
+//
+// At the age the fitted quantiles q_k of the grid taus tau_k are
+// non-decreasing in k (by construction; rounding inversions are turned into
+// ties). With z_k = Phi^-1(tau_k):
+//
+//   - q_k < value < q_k+1: z is linear in the value between (q_k, z_k) and
+//     (q_k+1, z_k+1). This is monotone and exact at the grid: a value equal
+//     to q_k scores z_k.
+//   - value equal to several tied q_j..q_m: z = (z_j + z_m)/2, the middle
+//     of the levels it matches.
+//   - value beyond the outermost fitted quantiles (tail rule): the line
+//     through the two outermost distinct fitted quantiles of that side,
+//     (q_0, z_0) and (q_1, z_1) below, (q_n-2, z_n-2) and (q_n-1, z_n-1)
+//     above, is extended, and FlagBeyondTail is set. This assumes the
+//     distribution beyond the fitted range keeps the local spread in z units
+//     of its outermost fitted band, as a normal tail would.
+//
+// A stratum of an LMS table (Stratum.LMS) is scored by the LMS formula
+// instead, as documented on LoadLMSTable.
+//
+// The centile is 100*Phi(z). FlagImplausible marks |z| > ImplausibleZ and
+// FlagSparse a value beyond a centile flagged by the sample-size guard.
+// Errors wrap ErrUnknownStratum, ErrAgeRange (never extrapolated in age),
+// ErrValue (NaN or infinite value) or ErrDegenerate (all fitted quantiles
+// equal at the age).
+func (r *Reference) Score(stratum string, age, value float64) (Score, error) {
+	st, b, err := r.lookup(stratum)
+	if err != nil {
+		return Score{}, err
+	}
+	var ws scoreSpace
+	return ws.score(r, st, b, age, value)
+}
+
+// scoreSpace is the scratch of one scoring: basis values and the fitted
+// quantiles at the age.
+type scoreSpace struct {
+	w, q []float64
+}
+
+func (ws *scoreSpace) score(r *Reference, st *Stratum, b *spline.Basis, age, value float64) (Score, error) {
+	if !isFin(value) {
+		return Score{}, fmt.Errorf("%w: %g", ErrValue, value)
+	}
+	if st.LMS != nil {
+		return ws.scoreLMS(r, st, age, value)
+	}
+	t, err := r.transform(st, b, age)
+	if err != nil {
+		return Score{}, err
+	}
+	ws.w = sized(ws.w, r.Degree+1)
+	ws.q = sized(ws.q, len(st.Taus))
+	if err := curveAt(ws.q, st, b, t, ws.w, 0); err != nil {
+		return Score{}, err
+	}
+	z, flags, err := place(st.Taus, ws.q, value)
+	if err != nil {
+		return Score{}, fmt.Errorf("stratum %q, age %g: %w", st.Name, age, err)
+	}
+	p := normP(z)
+	if math.Abs(z) > ImplausibleZ {
+		flags |= FlagImplausible
+	}
+	for _, f := range st.Flags {
+		if f.Action != "flagged" || !(age >= f.AgeLo && age < f.AgeHi) {
+			continue
+		}
+		if (f.Tau < 0.5 && p < f.Tau) || (f.Tau > 0.5 && p > f.Tau) {
+			flags |= FlagSparse
+		}
+	}
+	return Score{Centile: 100 * p, Z: z, Flags: flags}, nil
+}
+
+// place returns the z-score of v among the non-decreasing fitted quantiles q
+// of the levels taus, by the rules documented on Score.
+func place(taus, q []float64, v float64) (float64, ScoreFlags, error) {
+	n := len(q)
+	if !(q[0] < q[n-1]) {
+		return 0, 0, fmt.Errorf("%w: all equal %g", ErrDegenerate, q[0])
+	}
+	lo := sort.SearchFloat64s(q, v)                                       // first q >= v
+	hi := lo + sort.Search(n-lo, func(i int) bool { return q[lo+i] > v }) // first q > v
+	switch {
+	case hi > lo: // v equals q_lo..q_hi-1
+		if hi-lo == 1 {
+			return normZ(taus[lo]), 0, nil
+		}
+		return (normZ(taus[lo]) + normZ(taus[hi-1])) / 2, 0, nil
+	case lo == 0: // below the lowest curve: extend its lowest distinct band
+		k := sort.Search(n, func(i int) bool { return q[i] > q[0] })
+		z0, zk := normZ(taus[0]), normZ(taus[k])
+		return z0 + (v-q[0])*((zk-z0)/(q[k]-q[0])), FlagBeyondTail, nil
+	case lo == n: // above the highest curve
+		k := sort.SearchFloat64s(q, q[n-1]) - 1 // last q < q[n-1]
+		zk, z1 := normZ(taus[k]), normZ(taus[n-1])
+		return z1 + (v-q[n-1])*((z1-zk)/(q[n-1]-q[k])), FlagBeyondTail, nil
+	default: // q[lo-1] < v < q[lo]
+		z0, z1 := normZ(taus[lo-1]), normZ(taus[lo])
+		u := (v - q[lo-1]) / (q[lo] - q[lo-1])
+		// u is monotone in v, so z is; the clamp keeps rounding from
+		// lifting z above z1, the score of the value q[lo] itself.
+		return min(z0+u*(z1-z0), z1), 0, nil
+	}
+}
+
+// RowError is one row that ScoreAll could not score.
+type RowError struct {
+	Row int // index into the data columns
+	Err error
+}
+
+func (e RowError) Error() string { return fmt.Sprintf("row %d: %v", e.Row, e.Err) }
+func (e RowError) Unwrap() error { return e.Err }
+
+// RowErrors lists the rows ScoreAll could not score, in row order.
+type RowErrors []RowError
+
+// maxListedRows is how many failed rows RowErrors.Error spells out.
+const maxListedRows = 5
+
+func (e RowErrors) Error() string {
+	var b strings.Builder
+	fmt.Fprintf(&b, "curve: %d rows not scored", len(e))
+	for i, re := range e {
+		if i == maxListedRows {
+			fmt.Fprintf(&b, "; ... (%d more)", len(e)-i)
+			break
+		}
+		fmt.Fprintf(&b, "; %v", re)
+	}
+	return b.String()
+}
+
+// Unwrap lets errors.Is and errors.As see every row's error.
+func (e RowErrors) Unwrap() []error {
+	errs := make([]error, len(e))
+	for i := range e {
+		errs[i] = e[i]
+	}
+	return errs
+}
+
+// ScoreAll scores every row of d (Age, Value and Stratum; a nil Stratum
+// column means the name "" for every row; Weight and Subject are ignored)
+// into dst, resized to the number of rows, and returns it. Each score is the
+// one Score gives for the row. A row that cannot be scored gets NaN Z and
+// Centile and FlagUnscored, and the returned error, of type RowErrors, lists
+// it with the reason; the other rows are still scored. Columns of different
+// lengths return an error wrapping ErrData and no scores.
+func (r *Reference) ScoreAll(dst []Score, d *Data) ([]Score, error) {
+	n := len(d.Age)
+	if len(d.Value) != n || (d.Stratum != nil && len(d.Stratum) != n) {
+		return dst[:0], fmt.Errorf("%w: %d ages, %d values, %d strata", ErrData, n, len(d.Value), len(d.Stratum))
+	}
+	dst = sized(dst, n)
+	type prepared struct {
+		st  *Stratum
+		b   *spline.Basis
+		err error
+	}
+	cache := make(map[string]prepared)
+	var ws scoreSpace
+	var bad RowErrors
+	for i := range n {
+		name := ""
+		if d.Stratum != nil {
+			name = d.Stratum[i]
+		}
+		p, ok := cache[name]
+		if !ok {
+			p.st, p.b, p.err = r.lookup(name)
+			cache[name] = p
+		}
+		err := p.err
+		if err == nil {
+			dst[i], err = ws.score(r, p.st, p.b, d.Age[i], d.Value[i])
+		}
+		if err != nil {
+			dst[i] = Score{Centile: math.NaN(), Z: math.NaN(), Flags: FlagUnscored}
+			bad = append(bad, RowError{Row: i, Err: err})
+		}
+	}
+	if bad != nil {
+		return dst, bad
+	}
+	return dst, nil
+}
