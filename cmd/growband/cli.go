@@ -7,6 +7,9 @@ import (
 	"io"
 	"runtime/debug"
 	"strings"
+
+	"growband/internal/clinic"
+	"growband/internal/cohort"
 )
 
 const usageTop = `usage: growband <command> [arguments]
@@ -21,6 +24,8 @@ Commands:
   score    give z-scores and centiles of measurements against a reference
   chart    draw a reference's centile chart, optionally with children's points
   check    compare measurement data with a reference (coverage, Q-tests, worm plot)
+  compare  compare a cohort (or a second reference) with a reference: mean z, shares below -2
+  serve    a local clinic page and JSON scoring API for one or more references
 
 Run "growband <command> -h" for a command's arguments.
 `
@@ -29,12 +34,30 @@ Run "growband <command> -h" for a command's arguments.
 type command func(args []string, stdout, stderr io.Writer) error
 
 var commands = map[string]command{
-	"build": runBuild,
-	"demo":  runDemo,
-	"table": runTable,
-	"score": runScore,
-	"chart": runChart,
-	"check": runCheck,
+	"build":   runBuild,
+	"demo":    runDemo,
+	"table":   runTable,
+	"score":   runScore,
+	"chart":   runChart,
+	"check":   runCheck,
+	"compare": adapt("compare", cohort.RunCompare),
+	"serve":   adapt("serve", clinic.RunServe),
+}
+
+// adapt maps the help and usage errors of a subcommand that lives in its own
+// package onto this command's.
+func adapt(name string, c command) command {
+	return func(args []string, stdout, stderr io.Writer) error {
+		err := c(args, stdout, stderr)
+		var u *cohort.UsageError
+		switch {
+		case errors.Is(err, flag.ErrHelp):
+			return errHelp
+		case errors.As(err, &u), errors.Is(err, clinic.ErrUsage):
+			return usagef(name, "%v", err)
+		}
+		return err
+	}
 }
 
 // errHelp is returned after a usage text was shown on request; it means
@@ -94,7 +117,7 @@ func dispatch(args []string, stdout, stderr io.Writer) error {
 	}
 	c, ok := commands[name]
 	if !ok {
-		return &usageError{msg: fmt.Sprintf("unknown command %q (commands: build, demo, table, score, chart, check)", name)}
+		return &usageError{msg: fmt.Sprintf("unknown command %q (commands: build, demo, table, score, chart, check, compare, serve)", name)}
 	}
 	return c(args[1:], stdout, stderr)
 }

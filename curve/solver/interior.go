@@ -26,6 +26,13 @@ const (
 	ridgeTries = 6
 )
 
+// Kinds of rows in the interior-point method.
+const (
+	rowFree  = iota // soft row with positive cost: variables u, v, zu, zv, d
+	rowFixed        // soft row whose multiplier d is a constant (zero cost, or pooled)
+	rowHard         // constraint: variables s (slack) and d (its multiplier mu)
+)
+
 // interior solves the table's LP by a primal–dual interior-point method with
 // Mehrotra's predictor–corrector and returns its approximate solution b.
 //
@@ -38,7 +45,15 @@ const (
 // eliminates all but the p coefficient directions, leaving the normal
 // equations (X'Θ X + G'Σ G) Δb = rhs. Rows are banded, so the matrix is
 // accumulated in O(n·w²) for rows of w stored entries and factored by a
-// p-by-p Cholesky decomposition.
+// p-by-p Cholesky decomposition. The predictor and the corrector share Θ, so
+// each iteration accumulates and factors the matrix once; the work per
+// iteration is four passes over the rows.
+//
+// Pooled rows (preprocess.go) keep the sign of their residual by
+// construction, so their multiplier is fixed at its bound and they enter only
+// as a constant term of X'd: the method then never sees their large
+// residuals, which would otherwise swamp its scaling. Rows of zero cost are
+// fixed at d = 0 the same way.
 //
 // References:
 //   - Portnoy, S. & Koenker, R. (1997). The Gaussian hare and the Laplacian
@@ -52,276 +67,186 @@ func interior(t *table, maxIter int) (b []float64, iters int, err error) {
 	if maxIter <= 0 {
 		maxIter = 200
 	}
-	n, ns, p := t.rows(), t.nSoft, t.p()
-	ys, cs := t.scales()
-	var (
-		b0   = make([]float64, p)
-		r    = make([]float64, n)
-		u    = make([]float64, ns)
-		v    = make([]float64, ns)
-		zu   = make([]float64, ns)
-		zv   = make([]float64, ns)
-		d    = make([]float64, n) // d for soft rows, mu for hard rows
-		sl   = make([]float64, n) // slack s for hard rows
-		om   = make([]float64, n)
-		q    = make([]float64, n)
-		db   = make([]float64, p)
-		dd   = make([]float64, n)
-		du   = make([]float64, ns)
-		dv   = make([]float64, ns)
-		dzu  = make([]float64, ns)
-		dzv  = make([]float64, ns)
-		ds   = make([]float64, n)
-		ra   = make([]float64, ns)
-		rc   = make([]float64, ns)
-		rb   = make([]float64, p)
-		cu   = make([]float64, ns) // complementarity targets
-		cv   = make([]float64, ns)
-		csl  = make([]float64, n)
-		msym = mat.NewSymDense(p, nil)
-		chol mat.Cholesky
-	)
-	active := func(i int) bool { return i >= ns || t.a[i]+t.c[i] > 0 }
-
-	// Start from the least-squares fit of the banded rows weighted by their
-	// costs; pooled rows would dominate it, by design far from their fits.
-	nx := len(t.x.First)
-	for i := 0; i < nx; i++ {
-		om[i] = t.a[i] + t.c[i]
-		q[i] = t.y[i]
-	}
-	if err := normalSolve(t, msym, &chol, om[:nx], q[:nx], nil, b0); err != nil {
+	s := newIPM(t)
+	if err := s.start(); err != nil {
 		return nil, 0, err
 	}
-	t.residuals(r, b0)
-	meanAbs := 0.0
-	for i := 0; i < ns; i++ {
-		meanAbs += math.Abs(r[i])
-	}
-	meanAbs /= float64(max(ns, 1))
-	shift := math.Max(meanAbs, 1e-3*ys)
-	dualScale := 0.0
-	for i := 0; i < ns; i++ {
-		dualScale += t.a[i] + t.c[i]
-	}
-	dualScale = math.Max(dualScale/float64(max(ns, 1)), 1e-300)
-	for i := 0; i < n; i++ {
-		if i < ns {
-			if !active(i) {
-				continue
-			}
-			u[i] = math.Max(r[i], 0) + shift
-			v[i] = math.Max(-r[i], 0) + shift
-			d[i] = (t.a[i] - t.c[i]) / 2
-			zu[i] = t.a[i] - d[i]
-			zv[i] = t.c[i] + d[i]
-			continue
-		}
-		sl[i] = math.Max(-r[i], 0) + shift
-		d[i] = dualScale
-	}
-	b = b0
-	nc := 0
-	for i := 0; i < n; i++ {
-		if active(i) {
-			nc++
-			if i < ns {
-				nc++
-			}
-		}
-	}
-
+	ap, ad := 0.0, 0.0 // step of the previous iteration (none yet)
 	for iters = 0; iters < maxIter; iters++ {
-		t.residuals(r, b)
-		// Residuals of the KKT conditions.
-		clear(rb)
-		primal, dual := 0.0, 0.0
-		pinf, dinf, comp := 0.0, 0.0, 0.0
-		for i := 0; i < n; i++ {
-			if !active(i) {
-				continue
-			}
-			t.addRow(rb, i, -d[i])
-			dual += t.y[i] * d[i]
-			if i < ns {
-				primal += t.a[i]*u[i] + t.c[i]*v[i]
-				pinf = math.Max(pinf, math.Abs(r[i]-u[i]+v[i]))
-				ra[i] = t.a[i] - d[i] - zu[i]
-				rc[i] = t.c[i] + d[i] - zv[i]
-				dinf = math.Max(dinf, math.Max(math.Abs(ra[i]), math.Abs(rc[i])))
-				comp += u[i]*zu[i] + v[i]*zv[i]
-			} else {
-				pinf = math.Max(pinf, math.Abs(r[i]+sl[i]))
-				comp += sl[i] * d[i]
-			}
+		if s.state(ap, ad) {
+			return s.b, iters, nil
 		}
-		for _, x := range rb {
-			dinf = math.Max(dinf, math.Abs(x))
+		if err := s.factor(); err != nil {
+			return nil, iters, err
 		}
-		if math.Abs(primal-dual) <= gapTol*(1+math.Abs(primal)) && pinf <= feasTol*ys && dinf <= feasTol*cs*(1+float64(p)) {
-			return b, iters, nil
-		}
-		mu := comp / float64(max(nc, 1))
-
-		// newton solves for the step given complementarity targets.
-		newton := func() error {
-			for i := 0; i < n; i++ {
-				if !active(i) {
-					om[i] = 0
-					continue
-				}
-				if i < ns {
-					om[i] = 1 / (u[i]/zu[i] + v[i]/zv[i])
-					q[i] = (r[i] - u[i] + v[i]) - (cu[i]+u[i]*ra[i])/zu[i] + (cv[i]+v[i]*rc[i])/zv[i]
-				} else {
-					om[i] = d[i] / sl[i]
-					q[i] = (r[i] + sl[i]) + csl[i]/d[i]
-				}
-			}
-			if err := normalSolve(t, msym, &chol, om, q, rb, db); err != nil {
-				return err
-			}
-			for i := 0; i < n; i++ {
-				if !active(i) {
-					continue
-				}
-				f, xv := t.row(i)
-				xdb := 0.0
-				for m, x := range xv {
-					xdb += x * db[f+m]
-				}
-				dd[i] = om[i] * (q[i] - xdb)
-				if i < ns {
-					dzu[i] = -ra[i] - dd[i]
-					dzv[i] = dd[i] - rc[i]
-					du[i] = (cu[i] + u[i]*ra[i] + u[i]*dd[i]) / zu[i]
-					dv[i] = (cv[i] - v[i]*dd[i] + v[i]*rc[i]) / zv[i]
-				} else {
-					ds[i] = (csl[i] - sl[i]*dd[i]) / d[i]
-				}
-			}
-			return nil
-		}
-		steps := func() (ap, ad float64) {
-			ap, ad = 1, 1
-			lim := func(a, x, dx float64) float64 {
-				if dx < 0 {
-					return math.Min(a, -x/dx)
-				}
-				return a
-			}
-			for i := 0; i < n; i++ {
-				if !active(i) {
-					continue
-				}
-				if i < ns {
-					ap = lim(lim(ap, u[i], du[i]), v[i], dv[i])
-					ad = lim(lim(ad, zu[i], dzu[i]), zv[i], dzv[i])
-				} else {
-					ap = lim(ap, sl[i], ds[i])
-					ad = lim(ad, d[i], dd[i])
-				}
-			}
-			return ap, ad
-		}
-
 		// Predictor: the affine-scaling direction.
-		for i := 0; i < n; i++ {
-			if i < ns {
-				cu[i] = -u[i] * zu[i]
-				cv[i] = -v[i] * zv[i]
-			} else {
-				csl[i] = -sl[i] * d[i]
-			}
-		}
-		if err := newton(); err != nil {
-			return nil, iters, err
-		}
-		ap, ad := steps()
-		aff := 0.0
-		for i := 0; i < n; i++ {
-			if !active(i) {
-				continue
-			}
-			if i < ns {
-				aff += (u[i]+ap*du[i])*(zu[i]+ad*dzu[i]) + (v[i]+ap*dv[i])*(zv[i]+ad*dzv[i])
-			} else {
-				aff += (sl[i] + ap*ds[i]) * (d[i] + ad*dd[i])
-			}
-		}
-		sigma := math.Pow(aff/comp, 3)
+		s.solve()
+		var aff float64
+		ap, ad, aff = s.predict()
+		comp := s.comp
+		sigma := math.Pow(math.Max(aff, 0)/comp, 3)
 		// Corrector: centring plus the second-order term of the predictor.
-		for i := 0; i < n; i++ {
-			if !active(i) {
-				continue
-			}
-			if i < ns {
-				cu[i] = sigma*mu - u[i]*zu[i] - du[i]*dzu[i]
-				cv[i] = sigma*mu - v[i]*zv[i] - dv[i]*dzv[i]
-			} else {
-				csl[i] = sigma*mu - sl[i]*d[i] - ds[i]*dd[i]
-			}
-		}
-		if err := newton(); err != nil {
-			return nil, iters, err
-		}
-		ap, ad = steps()
+		s.target = sigma * comp / float64(max(s.nc, 1))
+		s.correct()
+		s.solve()
+		ap, ad = s.steps()
 		ap = math.Min(1, boundaryStep*ap)
 		ad = math.Min(1, boundaryStep*ad)
-		for k := range b {
-			b[k] += ap * db[k]
-		}
-		for i := 0; i < n; i++ {
-			if !active(i) {
-				continue
-			}
-			d[i] += ad * dd[i]
-			if i < ns {
-				u[i] += ap * du[i]
-				v[i] += ap * dv[i]
-				zu[i] += ad * dzu[i]
-				zv[i] += ad * dzv[i]
-			} else {
-				sl[i] += ap * ds[i]
-			}
+		for k := range s.b {
+			s.b[k] += ap * s.db[k]
 		}
 	}
 	// Not converged to the tolerances: the crossover still finds the vertex
 	// and the simplex method finishes from there, so the point is usable.
-	return b, iters, nil
+	return s.b, iters, nil
 }
 
-// normalSolve solves (sum_i om_i x_i x_i') db = sum_i x_i om_i q_i - sub
-// over the first len(om) rows of t (sub may be nil).
-func normalSolve(t *table, m *mat.SymDense, chol *mat.Cholesky, om, q, sub, db []float64) error {
-	p := t.p()
-	raw := m.RawSymmetric()
-	clear(raw.Data)
-	rhs := make([]float64, p)
-	if sub != nil {
-		for k := range rhs {
-			rhs[k] = -sub[k]
+// ipm is the state of the interior-point method. Per row i: r residual;
+// for free soft rows u, v and their multipliers zu, zv, the dual d, the dual
+// residuals ra, rc; for hard rows the slack in u and the multiplier in d.
+// om and q are the Newton weights and right-hand sides, pu and pv the
+// predictor's complementarity products, dd the last direction of d.
+type ipm struct {
+	t                 *table
+	n, ns, p, nc      int
+	ys, cs            float64
+	kind              []uint8
+	r, u, v, zu, zv   []float64
+	d, ra, rc, om, q  []float64
+	izu, izv          []float64 // 1/zu, 1/zv (1/d for hard rows)
+	pu, pv, dd        []float64
+	b, db, rb, rhs    []float64
+	m                 *mat.SymDense
+	chol              mat.Cholesky
+	comp, target      float64
+	factorised, first bool
+}
+
+func newIPM(t *table) *ipm {
+	n, ns, p := t.rows(), t.nSoft, t.p()
+	ys, cs := t.scales()
+	s := &ipm{t: t, n: n, ns: ns, p: p, ys: ys, cs: cs, kind: make([]uint8, n), m: mat.NewSymDense(p, nil)}
+	for _, a := range []*[]float64{&s.r, &s.u, &s.v, &s.zu, &s.zv, &s.d, &s.ra, &s.rc, &s.om, &s.q, &s.pu, &s.pv, &s.dd, &s.izu, &s.izv} {
+		*a = make([]float64, n)
+	}
+	for _, a := range []*[]float64{&s.b, &s.db, &s.rb, &s.rhs} {
+		*a = make([]float64, p)
+	}
+	nx := len(t.x.First)
+	for i := range s.kind {
+		switch {
+		case i >= ns:
+			s.kind[i] = rowHard
+			s.nc++
+		case i >= nx:
+			// A pooled row: its residual keeps the sign it was pooled with.
+			s.kind[i] = rowFixed
+			s.d[i] = t.a[i]
+			if t.poolSign[i-nx] < 0 {
+				s.d[i] = -t.c[i]
+			}
+		case t.a[i]+t.c[i] > 0:
+			s.kind[i] = rowFree
+			s.nc += 2
+		default:
+			s.kind[i] = rowFixed
 		}
 	}
-	for i, o := range om {
-		if o == 0 {
-			continue
+	return s
+}
+
+// start sets the starting point around the least-squares fit weighted by
+// the row costs.
+func (s *ipm) start() error {
+	t := s.t
+	for i := 0; i < s.n; i++ {
+		if s.kind[i] == rowFree {
+			s.om[i] = t.a[i] + t.c[i]
+			s.q[i] = t.y[i]
 		}
-		f, x := t.row(i)
-		w := len(x)
-		oq := o * q[i]
-		for k1, x1 := range x {
-			if x1 == 0 {
+	}
+	s.accumulate(true)
+	if err := s.factor(); err != nil {
+		return err
+	}
+	clear(s.rb)
+	s.solve()
+	copy(s.b, s.db)
+	t.residuals(s.r, s.b)
+	meanAbs, dualScale, nFree := 0.0, 0.0, 0
+	for i := 0; i < s.ns; i++ {
+		if s.kind[i] == rowFree {
+			meanAbs += math.Abs(s.r[i])
+			dualScale += t.a[i] + t.c[i]
+			nFree++
+		}
+	}
+	meanAbs /= float64(max(nFree, 1))
+	dualScale = math.Max(dualScale/float64(max(nFree, 1)), 1e-300)
+	shift := math.Max(meanAbs, 1e-3*s.ys)
+	for i := 0; i < s.n; i++ {
+		r := s.r[i]
+		switch s.kind[i] {
+		case rowFree:
+			s.u[i] = math.Max(r, 0) + shift
+			s.v[i] = math.Max(-r, 0) + shift
+			s.d[i] = (t.a[i] - t.c[i]) / 2
+			s.zu[i] = t.a[i] - s.d[i]
+			s.zv[i] = t.c[i] + s.d[i]
+		case rowHard:
+			s.u[i] = math.Max(-r, 0) + shift
+			s.d[i] = dualScale
+		}
+	}
+	s.first = true
+	return nil
+}
+
+// accumulate adds sum_i om_i x_i x_i' (when matrix is set) and sum_i
+// x_i om_i q_i into the normal equations.
+func (s *ipm) accumulate(matrix bool) {
+	raw := s.m.RawSymmetric()
+	if matrix {
+		clear(raw.Data)
+		s.factorised = false
+	}
+	clear(s.rhs)
+	for _, pt := range s.t.parts() {
+		w := pt.d.Width
+		for k, f := range pt.d.First {
+			i := pt.off + k
+			o := s.om[i]
+			if o == 0 {
 				continue
 			}
-			rhs[f+k1] += x1 * oq
-			ox := o * x1
-			row := raw.Data[(f+k1)*raw.Stride:]
-			for k2 := k1; k2 < w; k2++ {
-				row[f+k2] += ox * x[k2]
+			x := pt.d.Val[k*w : k*w+w]
+			oq := o * s.q[i]
+			rhs := s.rhs[f : f+w]
+			for k1, x1 := range x {
+				rhs[k1] += x1 * oq
+			}
+			if !matrix {
+				continue
+			}
+			for k1, x1 := range x {
+				if x1 == 0 {
+					continue
+				}
+				ox := o * x1
+				row := raw.Data[(f+k1)*raw.Stride+f : (f+k1)*raw.Stride+f+w]
+				for k2 := k1; k2 < w; k2++ {
+					row[k2] += ox * x[k2]
+				}
 			}
 		}
 	}
+}
+
+// factor factors the normal matrix, shifting its diagonal when it is not
+// numerically positive definite.
+func (s *ipm) factor() error {
+	p := s.p
+	raw := s.m.RawSymmetric()
 	trace := 0.0
 	for k := 0; k < p; k++ {
 		trace += raw.Data[k*raw.Stride+k]
@@ -330,7 +255,7 @@ func normalSolve(t *table, m *mat.SymDense, chol *mat.Cholesky, om, q, sub, db [
 		return fmt.Errorf("%w: interior point diverged", ErrNoConverge)
 	}
 	shift := 0.0
-	for try := 0; !chol.Factorize(m); try++ {
+	for try := 0; !s.chol.Factorize(s.m); try++ {
 		if try == ridgeTries {
 			return fmt.Errorf("%w: normal equations are singular", ErrRankDeficient)
 		}
@@ -340,13 +265,224 @@ func normalSolve(t *table, m *mat.SymDense, chol *mat.Cholesky, om, q, sub, db [
 		}
 		shift = step
 	}
-	out := mat.NewVecDense(p, db)
+	return nil
+}
+
+// solve sets db to the solution of the factored normal equations with
+// right-hand side rhs - rb.
+func (s *ipm) solve() {
+	for k := range s.rhs {
+		s.rhs[k] -= s.rb[k]
+	}
+	out := mat.NewVecDense(s.p, s.db)
 	// Late iterations are ill-conditioned by design (Θ spreads over many
-	// orders of magnitude); gonum's condition warning is expected then.
-	if err := chol.SolveVecTo(out, mat.NewVecDense(p, rhs)); err != nil {
-		if _, ok := err.(mat.Condition); !ok {
-			return err
+	// orders of magnitude); gonum's condition warning is expected then, and
+	// the crossover does not need an accurate step.
+	_ = s.chol.SolveVecTo(out, mat.NewVecDense(s.p, s.rhs))
+}
+
+// state takes the previous iteration's step (lengths ap, ad along the
+// directions left in db and dd), computes residuals, reports convergence,
+// and otherwise sets up the predictor's Newton system.
+func (s *ipm) state(ap, ad float64) (converged bool) {
+	t := s.t
+	if !s.first {
+		s.update(ap, ad)
+	}
+	s.first = false
+	clear(s.rb)
+	primal, dual := 0.0, 0.0
+	pinf, dinf, comp := 0.0, 0.0, 0.0
+	for _, pt := range t.parts() {
+		w := pt.d.Width
+		for k, f := range pt.d.First {
+			i := pt.off + k
+			x := pt.d.Val[k*w : k*w+w]
+			bb := s.b[f : f+w]
+			xb := 0.0
+			for m, xm := range x {
+				xb += xm * bb[m]
+			}
+			r := t.y[i] - xb
+			s.r[i] = r
+			di := s.d[i]
+			if di != 0 {
+				rb := s.rb[f : f+w]
+				for m, xm := range x {
+					rb[m] -= di * xm
+				}
+				dual += t.y[i] * di
+			}
+			switch s.kind[i] {
+			case rowFree:
+				u, v, zu, zv := s.u[i], s.v[i], s.zu[i], s.zv[i]
+				primal += t.a[i]*u + t.c[i]*v
+				pinf = max(pinf, math.Abs(r-u+v))
+				ra := t.a[i] - di - zu
+				rc := t.c[i] + di - zv
+				s.ra[i], s.rc[i] = ra, rc
+				dinf = max(dinf, math.Abs(ra), math.Abs(rc))
+				comp += u*zu + v*zv
+				izu, izv := 1/zu, 1/zv
+				s.izu[i], s.izv[i] = izu, izv
+				s.om[i] = 1 / (u*izu + v*izv)
+				s.q[i] = r - u*ra*izu + v*rc*izv
+			case rowFixed:
+				primal += di * r
+				s.om[i] = 0
+			case rowHard:
+				sl := s.u[i]
+				pinf = max(pinf, math.Abs(r+sl))
+				comp += sl * di
+				s.izu[i] = 1 / di
+				s.om[i] = di / sl
+				s.q[i] = r
+			}
 		}
 	}
-	return nil
+	for _, x := range s.rb {
+		dinf = max(dinf, math.Abs(x))
+	}
+	s.comp = comp
+	if math.Abs(primal-dual) <= gapTol*(1+math.Abs(primal)) && pinf <= feasTol*s.ys && dinf <= feasTol*s.cs*(1+float64(s.p)) {
+		return true
+	}
+	s.accumulate(true)
+	return false
+}
+
+// directions sets dd_i = om_i (q_i - x_i'db) for every row.
+func (s *ipm) directions() {
+	for _, pt := range s.t.parts() {
+		w := pt.d.Width
+		for k, f := range pt.d.First {
+			i := pt.off + k
+			if s.om[i] == 0 {
+				s.dd[i] = 0
+				continue
+			}
+			x := pt.d.Val[k*w : k*w+w]
+			db := s.db[f : f+w]
+			xdb := 0.0
+			for m, xm := range x {
+				xdb += xm * db[m]
+			}
+			s.dd[i] = s.om[i] * (s.q[i] - xdb)
+		}
+	}
+}
+
+// dirFree returns the steps of u, v, zu, zv of free row i given dd_i, for
+// which the linearised products (u+du)(zu+dzu) and (v+dv)(zv+dzv) equal tu
+// and tv.
+func (s *ipm) dirFree(i int, dd, tu, tv float64) (du, dv, dzu, dzv float64) {
+	u, v := s.u[i], s.v[i]
+	du = (tu+u*(s.ra[i]+dd))*s.izu[i] - u
+	dv = (tv+v*(s.rc[i]-dd))*s.izv[i] - v
+	return du, dv, -s.ra[i] - dd, dd - s.rc[i]
+}
+
+// dirHard returns the step of the slack of hard row i given dd_i, for which
+// the linearised product of slack and multiplier equals ts.
+func (s *ipm) dirHard(i int, dd, ts float64) float64 {
+	return (ts-s.u[i]*dd)*s.izu[i] - s.u[i]
+}
+
+// limit returns the largest a' <= a with x + a'dx >= 0 (x >= 0), dividing
+// only when the limit shrinks.
+func limit(a, x, dx float64) float64 {
+	if dx < 0 && x < -a*dx {
+		return -x / dx
+	}
+	return a
+}
+
+// predict computes the affine-scaling direction in db, its step lengths,
+// the complementarity it would reach, and stores its products for the
+// corrector.
+func (s *ipm) predict() (ap, ad, aff float64) {
+	s.target = 0
+	s.directions()
+	ap, ad = 1, 1
+	var s1, s2, s3 float64 // sums of dx*z, x*dz, dx*dz
+	for i := 0; i < s.n; i++ {
+		dd := s.dd[i]
+		switch s.kind[i] {
+		case rowFree:
+			du, dv, dzu, dzv := s.dirFree(i, dd, 0, 0)
+			ap = limit(limit(ap, s.u[i], du), s.v[i], dv)
+			ad = limit(limit(ad, s.zu[i], dzu), s.zv[i], dzv)
+			s1 += du*s.zu[i] + dv*s.zv[i]
+			s2 += s.u[i]*dzu + s.v[i]*dzv
+			pu, pv := du*dzu, dv*dzv
+			s3 += pu + pv
+			s.pu[i], s.pv[i] = pu, pv
+		case rowHard:
+			ds := s.dirHard(i, dd, 0)
+			ap = limit(ap, s.u[i], ds)
+			ad = limit(ad, s.d[i], dd)
+			s1 += ds * s.d[i]
+			s2 += s.u[i] * dd
+			s3 += ds * dd
+			s.pu[i] = ds * dd
+		}
+	}
+	aff = s.comp + ap*s1 + ad*s2 + ap*ad*s3
+	return ap, ad, aff
+}
+
+// correct sets up the corrector's right-hand side for target s.target,
+// reusing the predictor's factor.
+func (s *ipm) correct() {
+	tg := s.target
+	for i := 0; i < s.n; i++ {
+		switch s.kind[i] {
+		case rowFree:
+			s.q[i] += (s.pu[i]-tg)*s.izu[i] - (s.pv[i]-tg)*s.izv[i]
+		case rowHard:
+			s.q[i] += (tg - s.pu[i]) * s.izu[i]
+		}
+	}
+	s.accumulate(false)
+}
+
+// steps computes the corrector's directions and returns the longest steps
+// that keep the variables non-negative.
+func (s *ipm) steps() (ap, ad float64) {
+	s.directions()
+	tg := s.target
+	ap, ad = 1, 1
+	for i := 0; i < s.n; i++ {
+		dd := s.dd[i]
+		switch s.kind[i] {
+		case rowFree:
+			du, dv, dzu, dzv := s.dirFree(i, dd, tg-s.pu[i], tg-s.pv[i])
+			ap = limit(limit(ap, s.u[i], du), s.v[i], dv)
+			ad = limit(limit(ad, s.zu[i], dzu), s.zv[i], dzv)
+		case rowHard:
+			ap = limit(ap, s.u[i], s.dirHard(i, dd, tg-s.pu[i]))
+			ad = limit(ad, s.d[i], dd)
+		}
+	}
+	return ap, ad
+}
+
+// update moves the row variables along the corrector's directions.
+func (s *ipm) update(ap, ad float64) {
+	tg := s.target
+	for i := 0; i < s.n; i++ {
+		dd := s.dd[i]
+		switch s.kind[i] {
+		case rowFree:
+			du, dv, dzu, dzv := s.dirFree(i, dd, tg-s.pu[i], tg-s.pv[i])
+			s.u[i] += ap * du
+			s.v[i] += ap * dv
+			s.zu[i] += ad * dzu
+			s.zv[i] += ad * dzv
+			s.d[i] += ad * dd
+		case rowHard:
+			s.u[i] += ap * s.dirHard(i, dd, tg-s.pu[i])
+			s.d[i] += ad * dd
+		}
+	}
 }

@@ -20,61 +20,70 @@ const (
 )
 
 // reduction is a problem whose data rows with confidently signed residuals
-// are pooled into the linear term.
+// are pooled into two rows. The pools' sums are kept up to date as rows are
+// moved back, so a repair costs work in the moved rows only.
 type reduction struct {
 	full  *table
 	nData int
 	// sign per data row: +1 pooled above, -1 pooled below, 0 kept.
 	sign []int8
+	keep []int // kept data rows, ascending
+	// pooled sums of a_i x_i, a_i y_i, a_i (above) and c_i x_i, c_i y_i,
+	// c_i (below).
+	up, down               []float64
+	upY, downY, upW, downW float64
 }
 
 // solveReduced solves the full table by Portnoy & Koenker's preprocessing.
-// guess is a preliminary fit (a neighbouring solution), or nil for a cold
-// start from a subsample; level is the share of data rows below the guess's
-// fit that the answer is expected to move to (tau for a cold start).
+// r holds the residuals of a preliminary fit on the full table (from a
+// neighbouring solution, whose basis is given), or is nil for a cold start
+// from a subsample; on return it holds the residuals of the answer.
 //
 // Rows whose residuals at the guess lie outside the central band of ranks
-// [min(F0,tau) - m/2n, max(F0,tau) + m/2n] are pooled above or below; the
-// reduced problem is solved exactly; then every pooled row's sign is checked
-// on the full data. Wrong signs are repaired by moving those rows back, and
-// the reduced problem is solved again from the current vertex, until none
-// remain. The answer is then the exact optimum of the full problem: pooling
-// rows replaces rho(r) by the linear minorant a*r (or -c*r), which agrees
-// with it at the answer.
+// [min(F0,tau) - m/2n, max(F0,tau) + m/2n] are pooled above or below, where
+// F0 is the share of rows below the guess; the reduced problem is solved
+// exactly; then every pooled row's sign is checked on the full data. Wrong
+// signs are repaired by moving those rows back and descending from the
+// current vertex by the simplex method, until none remain. The answer is
+// then the exact optimum of the full problem: pooling rows replaces rho(r)
+// by the linear minorant a*r (or -c*r), which agrees with it at the answer.
 //
 // References:
 //   - Portnoy, S. & Koenker, R. (1997). The Gaussian hare and the Laplacian
 //     tortoise. Statistical Science 12, 279–300.
 //   - Chernozhukov, V., Fernández-Val, I. & Melly, B. (2022). Fast algorithms
 //     for the quantile regression process. Empirical Economics 62, 7–33.
-func solveReduced(full *table, nData int, tau float64, guess *Solution, m int, method Method, maxIter int) (*vertex, error) {
-	r := make([]float64, full.rows())
-	var basis []int
+func solveReduced(full *table, nData int, tau float64, r []float64, basis []int, m int, method Method, maxIter int) (*vertex, []float64, error) {
 	iters := 0
-	if guess == nil {
+	if r == nil {
+		r = make([]float64, full.rows())
 		sub := subsample(full, nData, m)
 		b, it, err := interior(sub, maxIter)
 		if err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		iters += it
 		full.residuals(r, b)
-	} else {
-		full.residuals(r, guess.Coef)
-		basis = guess.Basis
+		basis = nil
 	}
 	ys, _ := full.scales()
 	tol := zeroResidual * ys
 	red := &reduction{full: full, nData: nData, sign: make([]int8, nData)}
-	repairs, restart := 0, true
+	repairs, restarts, restart := 0, 0, true
 	for {
 		if restart {
 			red.classify(r[:nData], tau, m)
 		}
 		t := red.table()
-		v, err := solveTable(t, red.mapBasis(basis, t), method, maxIter)
+		start := red.mapBasis(basis, t)
+		use := method
+		if repairs > 0 && start != nil {
+			// A repair moves back few rows: the old vertex is close.
+			use = Simplex
+		}
+		v, err := solveTable(t, start, use, maxIter)
 		if err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		v.toFull(t, full)
 		iters += v.iters
@@ -85,13 +94,7 @@ func solveReduced(full *table, nData int, tau float64, guess *Solution, m int, m
 			full.residuals(r, v.b)
 			continue
 		}
-		full.residuals(r, v.b)
-		var bad []int
-		for i, s := range red.sign {
-			if (s > 0 && r[i] < -tol) || (s < 0 && r[i] > tol) {
-				bad = append(bad, i)
-			}
-		}
+		bad := red.verify(r, v.b, tol)
 		if len(bad) == 0 {
 			for i, s := range red.sign {
 				switch s {
@@ -102,19 +105,36 @@ func solveReduced(full *table, nData int, tau float64, guess *Solution, m int, m
 				}
 			}
 			v.iters, v.repairs = iters, repairs
-			return v, nil
+			return v, r, nil
 		}
 		repairs++
 		basis = v.basis
 		restart = float64(len(bad)) > repairShare*float64(m)
 		if restart {
-			m = min(2*m, nData)
+			// The first time, the classification came from a rougher fit
+			// than the reduced optimum now at hand: classify again around
+			// it before widening the band.
+			if restarts > 0 {
+				m = min(2*m, nData)
+			}
+			restarts++
 			continue
 		}
-		for _, i := range bad {
-			red.sign[i] = 0
+		red.unpool(bad)
+	}
+}
+
+// verify writes the full residuals at b into r and returns the pooled rows
+// whose residual has the wrong sign (beyond tol).
+func (red *reduction) verify(r, b []float64, tol float64) []int {
+	red.full.residuals(r, b)
+	var bad []int
+	for i, s := range red.sign {
+		if (s > 0 && r[i] < -tol) || (s < 0 && r[i] > tol) {
+			bad = append(bad, i)
 		}
 	}
+	return bad
 }
 
 // classify pools rows whose scaled residual ranks lie outside the band
@@ -123,16 +143,16 @@ func solveReduced(full *table, nData int, tau float64, guess *Solution, m int, m
 // through the design), so that the band is as wide, in units of the fit's
 // own uncertainty, at every age: growth data spread more with age.
 func (red *reduction) classify(r []float64, tau float64, m int) {
-	f := red.full
-	n, p := len(r), f.p()
+	x := red.full.x // data rows are the first rows of the banded part
+	n, p, w := len(r), x.Cols, x.Width
 	size, mass := make([]float64, p), make([]float64, p)
-	for i := 0; i < n; i++ {
-		first, v := f.row(i)
+	for i, f := range x.First[:n] {
 		ar := math.Abs(r[i])
-		for k, x := range v {
-			x = math.Abs(x)
-			size[first+k] += x * ar
-			mass[first+k] += x
+		sz, ms := size[f:f+w], mass[f:f+w]
+		for k, v := range x.Val[i*w : i*w+w] {
+			v = math.Abs(v)
+			sz[k] += v * ar
+			ms[k] += v
 		}
 	}
 	total := 0.0
@@ -143,27 +163,26 @@ func (red *reduction) classify(r []float64, tau float64, m int) {
 		total += mass[k]
 	}
 	mean := total / float64(p)
-	scaled := make([]float64, n)
-	for i := 0; i < n; i++ {
-		first, v := f.row(i)
-		sz, ms, wsum := 0.0, 0.0, 0.0
-		for k, x := range v {
-			x = math.Abs(x)
-			sz += x * size[first+k]
-			ms += x * mass[first+k]
-			wsum += x
+	scaled := func(i int) float64 {
+		f := x.First[i]
+		sz, ms := size[f:f+w], mass[f:f+w]
+		s, q, wsum := 0.0, 0.0, 0.0
+		for k, v := range x.Val[i*w : i*w+w] {
+			v = math.Abs(v)
+			s += v * sz[k]
+			q += v * ms[k]
+			wsum += v
 		}
-		band := 1.0
-		if wsum > 0 && sz > 0 && ms > 0 {
-			band = sz / wsum * math.Sqrt(mean*wsum/ms)
+		if wsum > 0 && s > 0 && q > 0 {
+			return r[i] / (s / wsum * math.Sqrt(mean*wsum/q))
 		}
-		scaled[i] = r[i] / band
+		return r[i]
 	}
 	step := max(n/rankSample, 1)
 	sample := make([]float64, 0, n/step+1)
 	below := 0
 	for i := 0; i < n; i += step {
-		sample = append(sample, scaled[i])
+		sample = append(sample, scaled(i))
 		if r[i] < 0 {
 			below++
 		}
@@ -184,16 +203,58 @@ func (red *reduction) classify(r []float64, tau float64, m int) {
 	if hi < 1 {
 		khi = at(hi)
 	}
-	for i, x := range scaled {
+	red.resetPools()
+	for i := 0; i < n; i++ {
+		s := scaled(i)
 		switch {
-		case x < klo:
+		case s < klo:
 			red.sign[i] = -1
-		case x > khi:
+			red.pool(i, -1, 1)
+		case s > khi:
 			red.sign[i] = 1
+			red.pool(i, 1, 1)
 		default:
 			red.sign[i] = 0
+			red.keep = append(red.keep, i)
 		}
 	}
+}
+
+// resetPools empties the pools and the kept rows.
+func (red *reduction) resetPools() {
+	p := red.full.p()
+	red.up, red.down = resize(red.up, p), resize(red.down, p)
+	clear(red.up)
+	clear(red.down)
+	red.upY, red.downY, red.upW, red.downW = 0, 0, 0, 0
+	red.keep = red.keep[:0]
+}
+
+// pool adds k times data row i to the pool of sign s: k = 1 pools the row,
+// k = -1 takes it back out.
+func (red *reduction) pool(i int, s int8, k float64) {
+	f := red.full
+	if s > 0 {
+		a := k * f.a[i]
+		f.addRow(red.up, i, a)
+		red.upY += a * f.y[i]
+		red.upW += a
+		return
+	}
+	c := k * f.c[i]
+	f.addRow(red.down, i, c)
+	red.downY += c * f.y[i]
+	red.downW += c
+}
+
+// unpool moves the given pooled rows back into the kept set.
+func (red *reduction) unpool(rows []int) {
+	for _, i := range rows {
+		red.pool(i, red.sign[i], -1)
+		red.sign[i] = 0
+	}
+	red.keep = append(red.keep, rows...)
+	slices.Sort(red.keep)
 }
 
 // poolMargin sets how far a pooled row's response lies from its fit, in
@@ -206,37 +267,23 @@ const poolMargin = 10
 // pooled row for each sign, and the hard rows.
 func (red *reduction) table() *table {
 	f := red.full
-	p := f.p()
 	ys, _ := f.scales()
-	keep := make([]int, 0, len(red.sign)/8)
-	up, down := make([]float64, p), make([]float64, p)
-	var upY, downY, upW, downW float64
-	for i, s := range red.sign {
-		switch s {
-		case 1:
-			f.addRow(up, i, f.a[i])
-			upY += f.a[i] * f.y[i]
-			upW += f.a[i]
-		case -1:
-			f.addRow(down, i, f.c[i])
-			downY += f.c[i] * f.y[i]
-			downW += f.c[i]
-		default:
-			keep = append(keep, i)
-		}
-	}
+	keep := slices.Grow(slices.Clone(red.keep), len(f.x.First)-red.nData)
 	for i := red.nData; i < len(f.x.First); i++ {
 		keep = append(keep, i)
 	}
 	var pool [][]float64
 	var poolY []float64
-	if upW > 0 {
-		pool, poolY = append(pool, up), append(poolY, upY+poolMargin*upW*ys)
+	var sign []int8
+	if red.upW > 0 {
+		pool, poolY, sign = append(pool, red.up), append(poolY, red.upY+poolMargin*red.upW*ys), append(sign, 1)
 	}
-	if downW > 0 {
-		pool, poolY = append(pool, down), append(poolY, downY-poolMargin*downW*ys)
+	if red.downW > 0 {
+		pool, poolY, sign = append(pool, red.down), append(poolY, red.downY-poolMargin*red.downW*ys), append(sign, -1)
 	}
-	return pick(f, keep, pool, poolY)
+	t := pick(f, keep, pool, poolY)
+	t.poolSign = sign
+	return t
 }
 
 // pick returns the table of the given banded rows of f, the pooled rows
@@ -279,19 +326,20 @@ func (red *reduction) mapBasis(basis []int, t *table) []int {
 	if basis == nil {
 		return nil
 	}
-	at := make(map[int]int, len(t.orig))
-	for k, i := range t.orig {
-		if i >= 0 {
-			at[i] = k
-		}
+	at := make(map[int]int, len(basis))
+	for k, i := range basis {
+		at[i] = k
 	}
 	out := make([]int, len(basis))
-	for k, i := range basis {
-		j, ok := at[i]
-		if !ok {
-			return nil
+	found := 0
+	for k, i := range t.orig {
+		if j, ok := at[i]; ok && i >= 0 {
+			out[j] = k
+			found++
 		}
-		out[k] = j
+	}
+	if found != len(basis) {
+		return nil
 	}
 	return out
 }
@@ -302,8 +350,21 @@ func (red *reduction) mapBasis(basis []int, t *table) []int {
 func subsample(f *table, nData, m int) *table {
 	rng := rand.New(rand.NewPCG(reduceSeed, uint64(nData)))
 	m = min(m, nData)
-	keep := rng.Perm(nData)[:m]
-	slices.Sort(keep)
+	// Floyd's algorithm draws m distinct rows in O(m) draws.
+	chosen := make([]bool, nData)
+	for j := nData - m; j < nData; j++ {
+		k := rng.IntN(j + 1)
+		if chosen[k] {
+			k = j
+		}
+		chosen[k] = true
+	}
+	keep := make([]int, 0, m+len(f.x.First)-nData)
+	for i, c := range chosen {
+		if c {
+			keep = append(keep, i)
+		}
+	}
 	for i := nData; i < len(f.x.First); i++ {
 		keep = append(keep, i)
 	}

@@ -73,17 +73,26 @@ func solve(pr *Problem, s *Settings) (*Solution, error) {
 		s = &Settings{}
 	}
 	t := newTable(pr)
-	n := pr.X.Rows()
 	if _, err := coldBasis(t); err != nil {
 		return nil, err
 	}
+	sol, _, err := solveOn(t, pr, s, s.Start, nil)
+	return sol, err
+}
+
+// solveOn solves the problem pr whose internal form is t (with the costs of
+// pr.Tau), starting from start when it fits. r, when not nil, holds the
+// residuals of start on t and is overwritten. It returns the solution and
+// the residuals at it.
+func solveOn(t *table, pr *Problem, s *Settings, start *Solution, r []float64) (*Solution, []float64, error) {
+	n := pr.X.Rows()
 	method := s.Method
-	var start []int
-	if s.Start != nil && len(s.Start.Basis) == t.p() && len(s.Start.Coef) == t.p() {
-		start = s.Start.Basis
-		for _, i := range start {
+	var basis []int
+	if start != nil && len(start.Basis) == t.p() && len(start.Coef) == t.p() {
+		basis = start.Basis
+		for _, i := range basis {
 			if i < 0 || i >= t.rows() {
-				start = nil
+				basis = nil
 				break
 			}
 		}
@@ -91,43 +100,66 @@ func solve(pr *Problem, s *Settings) (*Solution, error) {
 	var v *vertex
 	var err error
 	if method != Simplex && !s.NoPreprocess && n > PreprocessRows {
-		q := float64(t.p())
-		m := int(math.Ceil(math.Sqrt(q) * math.Pow(float64(n), 2.0/3)))
-		guess := s.Start
-		if start == nil {
-			guess = nil
+		m := coldMiddle(n, t.p())
+		if basis == nil {
+			r = nil
 		} else {
-			m = max(m/3, 4*t.p())
+			m = warmMiddle(n, t.p())
+			if r == nil {
+				r = make([]float64, t.rows())
+				t.residuals(r, start.Coef)
+			}
 		}
-		v, err = solveReduced(t, n, pr.Tau, guess, m, method, s.MaxIter)
+		v, r, err = solveReduced(t, n, pr.Tau, r, basis, m, method, s.MaxIter)
 		if v != nil {
 			v.method = Interior
 		}
 	} else {
 		if method == Interior {
-			start = nil
+			basis = nil
 		}
-		v, err = solveTable(t, start, method, s.MaxIter)
+		v, err = solveTable(t, basis, method, s.MaxIter)
+		r = nil
 	}
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
-	return solution(pr, t, v), nil
+	if r == nil {
+		r = make([]float64, t.rows())
+		t.residuals(r, v.b)
+	}
+	return solution(t, v, r), r, nil
 }
 
-// solution assembles the answer on the caller's numbering.
-func solution(pr *Problem, t *table, v *vertex) *Solution {
-	r := make([]float64, t.rows())
-	t.residuals(r, v.b)
-	obj := t.objective(r)
+// coldMiddle is the number of rows kept by the reduction of n data rows
+// without a neighbouring solution: Portnoy & Koenker's sqrt(p)*n^(2/3).
+func coldMiddle(n, p int) int {
+	return int(math.Ceil(math.Sqrt(float64(p)) * math.Pow(float64(n), 2.0/3)))
+}
+
+// warmMiddleScale: a neighbouring solution places residual ranks to within
+// about sqrt(p/n) of the answer's, so the band around its shift in level
+// holds warmMiddleScale*sqrt(p*n) extra rows (Chernozhukov, Fernández-Val &
+// Melly 2022 keep a band of this order).
+const warmMiddleScale = 3
+
+// warmMiddle is the extra number of rows kept around the shift in level
+// when the reduction starts from a neighbouring solution.
+func warmMiddle(n, p int) int {
+	return max(int(math.Ceil(warmMiddleScale*math.Sqrt(float64(p)*float64(n)))), 4*p)
+}
+
+// solution assembles the answer on the caller's numbering from the vertex
+// and the residuals r at it.
+func solution(t *table, v *vertex, r []float64) *Solution {
 	ns := t.nSoft
 	return &Solution{
 		Coef:           slices.Clone(v.b),
-		Objective:      obj,
+		Objective:      t.objective(r),
 		Iterations:     v.iters,
 		Method:         v.method,
 		Basis:          slices.Clone(v.basis),
-		Dual:           slices.Clone(v.dual[:ns]),
+		Dual:           v.dual[:ns:ns],
 		ConstraintDual: slices.Clone(v.dual[ns:]),
 		Reductions:     v.repairs,
 	}
@@ -154,6 +186,23 @@ func solveGrid(pr *Problem, taus []float64, s *Settings) ([]*Solution, error) {
 	if len(taus) == 0 {
 		return out, nil
 	}
+	// Validate and build the table once; only the data rows' costs depend
+	// on tau.
+	q := *pr
+	q.Tau = taus[order[0]]
+	for _, tau := range taus {
+		if !(tau > 0 && tau < 1) {
+			q.Tau = tau
+			break
+		}
+	}
+	if err := q.validate(); err != nil {
+		return nil, err
+	}
+	t := newTable(&q)
+	if _, err := coldBasis(t); err != nil {
+		return nil, err
+	}
 	// Start at the tau nearest the median and walk outwards both ways.
 	mid := 0
 	for k, i := range order {
@@ -161,27 +210,25 @@ func solveGrid(pr *Problem, taus []float64, s *Settings) ([]*Solution, error) {
 			mid = k
 		}
 	}
-	q := *pr
-	one := func(k int, from *Solution) (*Solution, error) {
+	one := func(k int, from *Solution, r []float64) (*Solution, []float64, error) {
 		q.Tau = taus[order[k]]
-		st := *s
-		st.Start = from
-		return Solve(&q, &st)
+		t.setTau(&q)
+		return solveOn(t, &q, s, from, r)
 	}
-	first, err := one(mid, s.Start)
+	first, r0, err := one(mid, s.Start, nil)
 	if err != nil {
 		return nil, err
 	}
 	out[order[mid]] = first
 	for _, dir := range []int{1, -1} {
-		prev := first
+		prev, r := first, slices.Clone(r0)
 		for k := mid + dir; k >= 0 && k < len(order); k += dir {
-			sol, err := one(k, prev)
+			sol, rk, err := one(k, prev, r)
 			if err != nil {
 				return nil, err
 			}
 			out[order[k]] = sol
-			prev = sol
+			prev, r = sol, rk
 		}
 	}
 	return out, nil

@@ -16,6 +16,11 @@ type table struct {
 	// orig maps rows to those of the table this one was taken from (-1 for
 	// a pooled row); nil means the identity.
 	orig []int
+	// poolSign holds, for each pooled row x.Rows()+k (the soft rows of
+	// wide), the sign its residual keeps by construction.
+	poolSign []int8
+	// ys, cs cache scales(); zero until first computed.
+	ys, cs float64
 }
 
 func (t *table) rows() int { return len(t.y) }
@@ -86,6 +91,19 @@ func newTable(pr *Problem) *table {
 	return t
 }
 
+// setTau sets the data rows' costs for pr.Tau; the rest of the table is
+// the same at every tau.
+func (t *table) setTau(pr *Problem) {
+	for i := range pr.X.Rows() {
+		w := 1.0
+		if pr.W != nil {
+			w = pr.W[i]
+		}
+		t.a[i] = w * pr.Tau
+		t.c[i] = w * (1 - pr.Tau)
+	}
+}
+
 // residuals writes r_i = y_i - x_i'b for every row.
 func (t *table) residuals(r, b []float64) {
 	for _, pt := range t.parts() {
@@ -118,17 +136,22 @@ func rho(r, a, c float64) float64 {
 
 // scales returns the largest |y| (at least 1) and the largest soft cost of
 // the banded and hard rows, used to make tolerances relative. Pooled rows
-// are left out: their responses are far from their fits by design.
+// are left out: their responses are far from their fits by design. The
+// result is cached: callers that change y or the costs a+c must reset t.ys.
 func (t *table) scales() (ys, cs float64) {
+	if t.ys > 0 {
+		return t.ys, t.cs
+	}
+	defer func() { t.ys, t.cs = ys, cs }()
 	ys = 1
 	nx := len(t.x.First)
 	for i, y := range t.y {
 		if i < nx || i >= t.nSoft {
-			ys = math.Max(ys, math.Abs(y))
+			ys = max(ys, math.Abs(y))
 		}
 	}
 	for i := 0; i < nx; i++ {
-		cs = math.Max(cs, t.a[i]+t.c[i])
+		cs = max(cs, t.a[i]+t.c[i])
 	}
 	if cs == 0 {
 		cs = 1

@@ -1,0 +1,20 @@
+package cohort
+
+import "errors"
+
+// Errors of Compare, CompareTwo and CompareReferences; test with errors.Is.
+var (
+	// ErrOptions: unusable options (band edges, level).
+	ErrOptions = errors.New("cohort: invalid options")
+	// ErrData: columns of different lengths, or no row that can be scored.
+	ErrData = errors.New("cohort: unusable data")
+	// ErrNoCommon: two references without a common stratum or age range.
+	ErrNoCommon = errors.New("cohort: the references have nothing in common")
+)
+
+// UsageError is a command line RunCompare cannot run (a bad or missing
+// flag): the caller exits with status 2. Other errors are failures (status
+// 1); a request for help returns flag.ErrHelp after writing the usage text.
+type UsageError struct{ Msg string }
+
+func (e *UsageError) Error() string { return e.Msg }
