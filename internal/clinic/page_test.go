@@ -1,0 +1,269 @@
+package clinic
+
+import (
+	"bytes"
+	"encoding/csv"
+	"fmt"
+	"html"
+	"mime/multipart"
+	"net/http"
+	"net/url"
+	"regexp"
+	"strconv"
+	"strings"
+	"testing"
+)
+
+// zCells finds the z-scores shown in the results table.
+var zCells = regexp.MustCompile(`<td class="num z" data-z>([^<]*)</td>`)
+
+// pageZ reads the shown z-scores back as numbers (the page writes a true
+// minus sign).
+func pageZ(t *testing.T, body string) []float64 {
+	t.Helper()
+	var zs []float64
+	for _, m := range zCells.FindAllStringSubmatch(body, -1) {
+		s := strings.Replace(html.UnescapeString(m[1]), "\u2212", "-", 1)
+		z, err := strconv.ParseFloat(s, 64)
+		if err != nil {
+			t.Fatalf("z cell %q: %v", m[1], err)
+		}
+		zs = append(zs, z)
+	}
+	return zs
+}
+
+func TestPageBlank(t *testing.T) {
+	h, _ := newTestHandler(t, Options{}, true)
+	rec := do(t, h, http.MethodGet, "/", "", nil)
+	if rec.Code != http.StatusOK {
+		t.Fatalf("status %d", rec.Code)
+	}
+	body := rec.Body.String()
+	for _, want := range []string{
+		"weight in kg", "0 to 24 months", "This reference describes the sample", // reference facts and caution
+		`name="age"`, `name="measured"`, `name="value"`, `name="birth"`, // the form
+		`<option value="single"`,                                                      // the reference picker, two being loaded
+		`Age <span class="unit">months</span>`, `weight <span class="unit">kg</span>`, // units on labels
+	} {
+		if !strings.Contains(body, want) {
+			t.Errorf("page lacks %q", want)
+		}
+	}
+	if strings.Contains(body, "https://") || strings.Contains(body, "http://") {
+		t.Error("page refers to another site")
+	}
+	if strings.Contains(body, `class="card results"`) {
+		t.Error("results shown before anything was entered")
+	}
+}
+
+func TestPageScore(t *testing.T) {
+	h, _ := newTestHandler(t, Options{}, false)
+	// Two visits given out of order: the page lists them by age.
+	form := url.Values{
+		"stratum": {"F"}, "birth": {"2024-01-02"},
+		"age":      {"12", ""},
+		"measured": {"", "2024-07-02"},
+		"value":    {fmt.Sprint(testMean("F", 12) - 0.5*testSD), "6.2"},
+	}
+	rec := postForm(t, h, form)
+	if rec.Code != http.StatusOK {
+		t.Fatalf("status %d: %s", rec.Code, rec.Body)
+	}
+	body := rec.Body.String()
+	// 2024-01-02 to 2024-07-02 is 182 days (exact calendar arithmetic).
+	age2 := 182 / daysPerMonth
+	zs := pageZ(t, body)
+	want := []float64{testZ("F", age2, 6.2), -0.5}
+	if len(zs) != 2 || !near(zs[0], want[0], 0.005) || !near(zs[1], want[1], 0.005) {
+		t.Fatalf("page z %v, want %v (2 decimals)", zs, want)
+	}
+	dz := fmt.Sprintf("%.2f", want[1]-want[0])
+	dz = strings.Replace(dz, "-", "\u2212", 1)
+	if !strings.Contains(body, `<td class="num">`+dz+`</td>`) {
+		t.Errorf("change in z %s not shown", dz)
+	}
+	if !strings.Contains(body, "<figure class=\"chart\"><svg") {
+		t.Error("no inline chart")
+	}
+	if strings.Contains(body, "<?xml") {
+		t.Error("XML declaration inside the page")
+	}
+	// The GET form of the same request shows the same numbers.
+	rec = do(t, h, http.MethodGet, "/?"+form.Encode(), "", nil)
+	if got := pageZ(t, rec.Body.String()); len(got) != 2 || got[0] != zs[0] || got[1] != zs[1] {
+		t.Errorf("GET page z %v, POST %v", got, zs)
+	}
+}
+
+func TestPageErrorsBesideFields(t *testing.T) {
+	h, _ := newTestHandler(t, Options{}, false)
+	for _, c := range []struct {
+		name  string
+		form  url.Values
+		errID string // the error paragraph's id, beside its field
+		text  string
+	}{
+		{"bad value", url.Values{"stratum": {"F"}, "age": {"3"}, "value": {"abc"}}, "value-1-err", "not a number"},
+		{"no value", url.Values{"stratum": {"F"}, "age": {"3"}, "value": {""}, "measured": {"x"}}, "value-1-err", "enter the measurement"},
+		{"bad age", url.Values{"stratum": {"F"}, "age": {"three"}, "value": {"5"}}, "age-1-err", "not a number"},
+		{"age and date", url.Values{"stratum": {"F"}, "age": {"3"}, "measured": {"2024-01-01"}, "value": {"5"}}, "age-1-err", "not both"},
+		{"date without birth", url.Values{"stratum": {"F"}, "measured": {"2024-01-01"}, "value": {"5"}}, "birth-err", "birth date"},
+		{"visit before birth", url.Values{"stratum": {"F"}, "birth": {"2024-02-01"}, "measured": {"2024-01-01"}, "value": {"5"}}, "measured-1-err", "before the birth"},
+		{"unknown stratum", url.Values{"stratum": {"Z"}, "age": {"3"}, "value": {"5"}}, "stratum-err", "unknown stratum"},
+		{"second row", url.Values{"stratum": {"F"}, "age": {"3", "4"}, "value": {"5", "5,5,5"}}, "value-2-err", "not a number"},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			rec := postForm(t, h, c.form)
+			body := rec.Body.String()
+			if rec.Code != http.StatusUnprocessableEntity {
+				t.Errorf("status %d", rec.Code)
+			}
+			re := regexp.MustCompile(`<p class="err" id="` + c.errID + `">([^<]*)</p>`)
+			m := re.FindStringSubmatch(body)
+			if m == nil || !strings.Contains(m[1], c.text) {
+				t.Errorf("no error %q at %s; errors shown: %q", c.text, c.errID, regexp.MustCompile(`<p class="err"[^>]*>[^<]*`).FindAllString(body, -1))
+			}
+			// The entered text is kept so it can be corrected.
+			for _, v := range c.form["value"] {
+				if v != "" && !strings.Contains(body, `value="`+v+`"`) {
+					t.Errorf("entered %q not kept", v)
+				}
+			}
+		})
+	}
+	// A good row beside a bad one is still scored.
+	rec := postForm(t, h, url.Values{"stratum": {"F"}, "age": {"3", "4"}, "value": {"x", "5"}})
+	if zs := pageZ(t, rec.Body.String()); len(zs) != 1 {
+		t.Errorf("z shown %v, want the good row's", zs)
+	}
+}
+
+func TestPageAddVisitAndChoose(t *testing.T) {
+	h, _ := newTestHandler(t, Options{}, true)
+	rec := postForm(t, h, url.Values{"ref": {"weight"}, "stratum": {"F"}, "age": {"3"}, "value": {"5"}, "do": {"add"}})
+	if n := strings.Count(rec.Body.String(), "data-visit>"); n != 2 {
+		t.Errorf("%d visit rows after adding one, want 2", n)
+	}
+	rec = do(t, h, http.MethodGet, "/?ref=single&do=choose", "", nil)
+	body := rec.Body.String()
+	if !strings.Contains(body, `<option value="single" selected>`) || strings.Contains(body, `class="card results"`) {
+		t.Error("choosing a reference did not select it, or scored")
+	}
+	rec = do(t, h, http.MethodGet, "/?ref=nothing", "", nil)
+	if !strings.Contains(rec.Body.String(), "unknown reference") {
+		t.Error("unknown reference not reported")
+	}
+}
+
+func TestBatchAPI(t *testing.T) {
+	h, r := newTestHandler(t, Options{}, false)
+	in := "id,stratum,age,value\n" +
+		"a,F,3,4.9\n" +
+		"b,M,12.5,\"9,4\"\n" + // decimal comma in a quoted field
+		"c,M,30,10\n" + // age out of range
+		"d,X,3,5\n" + // unknown stratum
+		"e,F,3,heavy\n" +
+		"\n" +
+		"f,F,,5\n"
+	rec := do(t, h, http.MethodPost, "/api/v1/batch", "text/csv", strings.NewReader(in))
+	if rec.Code != http.StatusOK {
+		t.Fatalf("status %d: %s", rec.Code, rec.Body)
+	}
+	rows, err := csv.NewReader(rec.Body).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(rows) != 7 || strings.Join(rows[0], ",") != "id,stratum,age,value,age_used,z,centile,flags,note" {
+		t.Fatalf("rows %q", rows)
+	}
+	for i, c := range []struct {
+		s    string
+		a, v float64
+	}{{"F", 3, 4.9}, {"M", 12.5, 9.4}} {
+		d, _ := r.Score(c.s, c.a, c.v)
+		if rows[i+1][5] != strconv.FormatFloat(d.Z, 'f', 4, 64) {
+			t.Errorf("row %d: z %q, direct %v", i+1, rows[i+1][5], d.Z)
+		}
+	}
+	for i, want := range map[int]string{3: flagOutside, 4: "unscored", 5: "unscored", 6: "unscored"} {
+		if rows[i][7] != want || rows[i][5] != "" {
+			t.Errorf("row %d: %q, want flag %s", i, rows[i], want)
+		}
+	}
+	if !strings.Contains(rows[4][8], "unknown stratum") || !strings.Contains(rows[5][8], "not a number") {
+		t.Errorf("notes %q, %q", rows[4][8], rows[5][8])
+	}
+	// Semicolons, dates and a decimal comma.
+	in = "\ufeffStratum;Birth;Measured;Value\nF;2024-01-02;2025-01-02;7,9\n"
+	rec = do(t, h, http.MethodPost, "/api/v1/batch?reference=weight", "text/csv", strings.NewReader(in))
+	rows, _ = csv.NewReader(rec.Body).ReadAll()
+	age := 366 / daysPerMonth // exact calendar arithmetic, as in TestScoreDates
+	if len(rows) != 2 || rows[1][4] != strconv.FormatFloat(age, 'f', 4, 64) ||
+		rows[1][5] != strconv.FormatFloat(testZ("F", age, 7.9), 'f', 4, 64) {
+		t.Errorf("rows %q", rows)
+	}
+	for _, c := range []struct{ body, query, field string }{
+		{"stratum,age\nF,3\n", "", "file"},
+		{"stratum,value\nF,3\n", "", "file"},
+		{"age,value\n3,4\n", "", "file"}, // two strata, no stratum column
+		{"", "", "file"},
+		{"age,value\n\x00\x01", "", "file"},
+		{"stratum,age,value\nF,3,\"4\n", "", "file"},
+		{"stratum,age,value\nF,3,4\n", "?reference=nope", "reference"},
+	} {
+		rec := do(t, h, http.MethodPost, "/api/v1/batch"+c.query, "text/csv", strings.NewReader(c.body))
+		if rec.Code != http.StatusBadRequest {
+			t.Errorf("%q: status %d", c.body, rec.Code)
+			continue
+		}
+		if e := decode[errorBody](t, rec); e.Field != c.field {
+			t.Errorf("%q: %+v", c.body, e)
+		}
+	}
+}
+
+func multipartBody(t *testing.T, ref, name, content string) (*bytes.Buffer, string) {
+	t.Helper()
+	var buf bytes.Buffer
+	mw := multipart.NewWriter(&buf)
+	if err := mw.WriteField("ref", ref); err != nil {
+		t.Fatal(err)
+	}
+	if name != "" {
+		fw, err := mw.CreateFormFile("file", name)
+		if err != nil {
+			t.Fatal(err)
+		}
+		fw.Write([]byte(content))
+	}
+	mw.Close()
+	return &buf, mw.FormDataContentType()
+}
+
+func TestBatchForm(t *testing.T) {
+	h, _ := newTestHandler(t, Options{}, false)
+	body, ct := multipartBody(t, "weight", `C:\clinic\visits "march".csv`, "stratum,age,value\nF,3,4.9\n")
+	rec := do(t, h, http.MethodPost, "/batch", ct, body)
+	if rec.Code != http.StatusOK || !strings.HasPrefix(rec.Header().Get("Content-Type"), "text/csv") {
+		t.Fatalf("status %d, %s: %s", rec.Code, rec.Header().Get("Content-Type"), rec.Body)
+	}
+	if cd := rec.Header().Get("Content-Disposition"); cd != `attachment; filename="visits__march_-scored.csv"` {
+		t.Errorf("Content-Disposition %q", cd)
+	}
+	body, ct = multipartBody(t, "weight", "x.csv", "stratum,age\nF,3\n")
+	rec = do(t, h, http.MethodPost, "/batch", ct, body)
+	if rec.Code != http.StatusBadRequest || !strings.Contains(rec.Body.String(), `id="file-err"`) {
+		t.Errorf("bad file: status %d", rec.Code)
+	}
+	body, ct = multipartBody(t, "weight", "", "")
+	rec = do(t, h, http.MethodPost, "/batch", ct, body)
+	if rec.Code != http.StatusBadRequest || !strings.Contains(rec.Body.String(), "choose a CSV file") {
+		t.Errorf("no file: status %d", rec.Code)
+	}
+	rec = do(t, h, http.MethodPost, "/batch", "text/plain", strings.NewReader("x"))
+	if rec.Code != http.StatusBadRequest {
+		t.Errorf("not multipart: status %d", rec.Code)
+	}
+}
