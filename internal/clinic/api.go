@@ -100,7 +100,9 @@ func decodeError(err error, prefix string) error {
 		return fieldErr(bodyField, "JSON is truncated or empty")
 	}
 	if name, ok := strings.CutPrefix(err.Error(), "json: unknown field "); ok {
-		name, _ = strconv.Unquote(name)
+		if u, err := strconv.Unquote(name); err == nil && u != "" {
+			name = u
+		}
 		return fieldErr(prefix+name, "unknown field; known: reference, stratum, age, birth, measured, value")
 	}
 	return fieldErr(bodyField, "%v", err)

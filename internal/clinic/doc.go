@@ -23,5 +23,6 @@
 //	GET  /api/v1/references     the loaded references
 //	POST /api/v1/score          one measurement (object) or several (array)
 //	GET  /api/v1/chart.svg      the centile chart with age/value pairs
+//	POST /api/v1/batch          a CSV body (?reference=NAME); answers the scored CSV
 //	GET  /healthz               "ok"
 package clinic

@@ -162,12 +162,8 @@ func (h *handler) handlePage(w http.ResponseWriter, r *http.Request) {
 	for i := range pd.Rows {
 		pd.Rows[i].N = i + 1
 	}
-	r0, _ := h.cat.pick("ref", pd.Ref.Name)
-	ref := h.cat.refs[r0]
-	if _, err := ref.Stratum(pd.Stratum); err == nil || pd.Stratum == "" {
-		for i := range pd.Ref.Strata {
-			pd.Ref.Strata[i].Selected = pd.Ref.Strata[i].Name == pd.Stratum
-		}
+	for i := range pd.Ref.Strata {
+		pd.Ref.Strata[i].Selected = pd.Ref.Strata[i].Name == pd.Stratum
 	}
 	status := http.StatusOK
 	if pd.HasErrors {
