@@ -14,7 +14,7 @@ const (
 	repairShare = 0.1
 	// rankSample: residual quantiles that place the thresholds are read off
 	// this many evenly spaced rows.
-	rankSample = 20000
+	rankSample = 50000
 	// reduceSeed seeds the subsample of a cold start so answers repeat.
 	reduceSeed = 0x6772_6f77
 )
@@ -35,9 +35,10 @@ type reduction struct {
 }
 
 // solveReduced solves the full table by Portnoy & Koenker's preprocessing.
-// r holds the residuals of a preliminary fit on the full table (from a
+// cr.r holds the residuals of a preliminary fit on the full table (from a
 // neighbouring solution, whose basis is given), or is nil for a cold start
-// from a subsample; on return it holds the residuals of the answer.
+// from a subsample; on return it holds the residuals of the answer and
+// cr.obj its objective.
 //
 // Rows whose residuals at the guess lie outside the central band of ranks
 // [min(F0,tau) - m/2n, max(F0,tau) + m/2n] are pooled above or below, where
@@ -53,26 +54,30 @@ type reduction struct {
 //     tortoise. Statistical Science 12, 279–300.
 //   - Chernozhukov, V., Fernández-Val, I. & Melly, B. (2022). Fast algorithms
 //     for the quantile regression process. Empirical Economics 62, 7–33.
-func solveReduced(full *table, nData int, tau float64, r []float64, basis []int, m int, method Method, maxIter int) (*vertex, []float64, error) {
+func solveReduced(full *table, nData int, tau float64, cr *carry, basis []int, m int, method Method, maxIter int) (*vertex, error) {
 	iters := 0
-	if r == nil {
-		r = make([]float64, full.rows())
+	if cr.r == nil {
+		cr.r = make([]float64, full.rows())
 		sub := subsample(full, nData, m)
 		b, it, err := interior(sub, maxIter)
 		if err != nil {
-			return nil, nil, err
+			return nil, err
 		}
 		iters += it
-		full.residuals(r, b)
+		full.residuals(cr.r, b)
 		basis = nil
 	}
+	r := cr.r
 	ys, _ := full.scales()
 	tol := zeroResidual * ys
 	red := &reduction{full: full, nData: nData, sign: make([]int8, nData)}
 	repairs, restarts, restart := 0, 0, true
 	for {
 		if restart {
-			red.classify(r[:nData], tau, m)
+			if cr.scale == nil {
+				cr.scale = rowScales(full.x, r[:nData])
+			}
+			red.classify(r[:nData], cr.scale, tau, m)
 		}
 		t := red.table()
 		start := red.mapBasis(basis, t)
@@ -83,7 +88,7 @@ func solveReduced(full *table, nData int, tau float64, r []float64, basis []int,
 		}
 		v, err := solveTable(t, start, use, maxIter)
 		if err != nil {
-			return nil, nil, err
+			return nil, err
 		}
 		v.toFull(t, full)
 		iters += v.iters
@@ -94,7 +99,7 @@ func solveReduced(full *table, nData int, tau float64, r []float64, basis []int,
 			full.residuals(r, v.b)
 			continue
 		}
-		bad := red.verify(r, v.b, tol)
+		bad, obj := red.verify(r, v.b, tol)
 		if len(bad) == 0 {
 			for i, s := range red.sign {
 				switch s {
@@ -105,7 +110,8 @@ func solveReduced(full *table, nData int, tau float64, r []float64, basis []int,
 				}
 			}
 			v.iters, v.repairs = iters, repairs
-			return v, r, nil
+			cr.obj = obj
+			return v, nil
 		}
 		repairs++
 		basis = v.basis
@@ -124,26 +130,65 @@ func solveReduced(full *table, nData int, tau float64, r []float64, basis []int,
 	}
 }
 
-// verify writes the full residuals at b into r and returns the pooled rows
-// whose residual has the wrong sign (beyond tol).
-func (red *reduction) verify(r, b []float64, tol float64) []int {
-	red.full.residuals(r, b)
-	var bad []int
-	for i, s := range red.sign {
-		if (s > 0 && r[i] < -tol) || (s < 0 && r[i] > tol) {
-			bad = append(bad, i)
-		}
-	}
-	return bad
+// carry is what a reduced solve leaves for the next on the same table.
+type carry struct {
+	// r holds the residuals on the full table of the last answer (or of a
+	// neighbouring solution before the first); nil means none.
+	r []float64
+	// scale holds the rows' residual scales (see rowScales), computed once.
+	scale []float64
+	// obj is the objective at r after a solve.
+	obj float64
 }
 
-// classify pools rows whose scaled residual ranks lie outside the band
-// around the shift from the guess's level to tau. Residuals are scaled by
-// the local residual size over the local share of rows (both projected
-// through the design), so that the band is as wide, in units of the fit's
-// own uncertainty, at every age: growth data spread more with age.
-func (red *reduction) classify(r []float64, tau float64, m int) {
-	x := red.full.x // data rows are the first rows of the banded part
+// verify writes the full residuals at b into r and returns the pooled rows
+// whose residual has the wrong sign (beyond tol), and the objective at b.
+func (red *reduction) verify(r, b []float64, tol float64) (bad []int, obj float64) {
+	f := red.full
+	x := f.x
+	w := x.Width
+	for i, s := range red.sign {
+		fi := x.First[i]
+		bb := b[fi : fi+w]
+		xb := 0.0
+		for k, v := range x.Val[i*w : i*w+w] {
+			xb += v * bb[k]
+		}
+		ri := f.y[i] - xb
+		r[i] = ri
+		if ri > 0 {
+			obj += f.a[i] * ri
+			if s < 0 && ri > tol {
+				bad = append(bad, i)
+			}
+		} else {
+			obj -= f.c[i] * ri
+			if s > 0 && ri < -tol {
+				bad = append(bad, i)
+			}
+		}
+	}
+	// The remaining rows: penalty and hard rows.
+	for _, pt := range f.parts() {
+		w := pt.d.Width
+		for k := max(red.nData-pt.off, 0); k < len(pt.d.First); k++ {
+			i := pt.off + k
+			fi := pt.d.First[k]
+			r[i] = f.y[i] - dot(pt.d.Val[k*w:k*w+w], b[fi:fi+w])
+			if i < f.nSoft {
+				obj += rho(r[i], f.a[i], f.c[i])
+			}
+		}
+	}
+	return bad, obj
+}
+
+// rowScales returns, for each data row, the factor that turns its residual
+// into units of the local residual size over the local share of rows (both
+// projected through the design), so that a band of scaled residual ranks is
+// as wide, in units of the fit's own uncertainty, at every age: growth data
+// spread more with age.
+func rowScales(x *Design, r []float64) []float64 {
 	n, p, w := len(r), x.Cols, x.Width
 	size, mass := make([]float64, p), make([]float64, p)
 	for i, f := range x.First[:n] {
@@ -163,8 +208,8 @@ func (red *reduction) classify(r []float64, tau float64, m int) {
 		total += mass[k]
 	}
 	mean := total / float64(p)
-	scaled := func(i int) float64 {
-		f := x.First[i]
+	scale := make([]float64, n)
+	for i, f := range x.First[:n] {
 		sz, ms := size[f:f+w], mass[f:f+w]
 		s, q, wsum := 0.0, 0.0, 0.0
 		for k, v := range x.Val[i*w : i*w+w] {
@@ -173,28 +218,35 @@ func (red *reduction) classify(r []float64, tau float64, m int) {
 			q += v * ms[k]
 			wsum += v
 		}
+		scale[i] = 1
 		if wsum > 0 && s > 0 && q > 0 {
-			return r[i] / (s / wsum * math.Sqrt(mean*wsum/q))
+			scale[i] = wsum / (s * math.Sqrt(mean*wsum/q))
 		}
-		return r[i]
 	}
+	return scale
+}
+
+// classify pools rows whose scaled residual ranks lie outside the band
+// around the shift from the guess's level to tau.
+func (red *reduction) classify(r, scale []float64, tau float64, m int) {
+	x := red.full.x // data rows are the first rows of the banded part
+	n, w := len(r), x.Width
 	step := max(n/rankSample, 1)
 	sample := make([]float64, 0, n/step+1)
 	below := 0
 	for i := 0; i < n; i += step {
-		sample = append(sample, scaled(i))
+		sample = append(sample, r[i]*scale[i])
 		if r[i] < 0 {
 			below++
 		}
 	}
-	slices.Sort(sample)
 	f0 := float64(below) / float64(len(sample))
 	half := float64(m) / (2 * float64(n))
-	lo := math.Max(math.Min(f0, tau)-half, 0)
-	hi := math.Min(math.Max(f0, tau)+half, 1)
+	lo := max(min(f0, tau)-half, 0)
+	hi := min(max(f0, tau)+half, 1)
 	at := func(q float64) float64 {
 		k := int(q * float64(len(sample)-1))
-		return sample[min(max(k, 0), len(sample)-1)]
+		return nth(sample, min(max(k, 0), len(sample)-1))
 	}
 	klo, khi := math.Inf(-1), math.Inf(1)
 	if lo > 0 {
@@ -204,20 +256,66 @@ func (red *reduction) classify(r []float64, tau float64, m int) {
 		khi = at(hi)
 	}
 	red.resetPools()
-	for i := 0; i < n; i++ {
-		s := scaled(i)
+	f := red.full
+	up, down := red.up, red.down
+	for i, fi := range x.First[:n] {
+		s := r[i] * scale[i]
 		switch {
 		case s < klo:
 			red.sign[i] = -1
-			red.pool(i, -1, 1)
+			c := f.c[i]
+			d := down[fi : fi+w]
+			for k, v := range x.Val[i*w : i*w+w] {
+				d[k] += c * v
+			}
+			red.downY += c * f.y[i]
+			red.downW += c
 		case s > khi:
 			red.sign[i] = 1
-			red.pool(i, 1, 1)
+			a := f.a[i]
+			u := up[fi : fi+w]
+			for k, v := range x.Val[i*w : i*w+w] {
+				u[k] += a * v
+			}
+			red.upY += a * f.y[i]
+			red.upW += a
 		default:
 			red.sign[i] = 0
 			red.keep = append(red.keep, i)
 		}
 	}
+}
+
+// nth returns the k-th smallest element of a, partly reordering a
+// (Hoare's selection, expected linear time).
+func nth(a []float64, k int) float64 {
+	lo, hi := 0, len(a)-1
+	for lo < hi {
+		pivot := a[lo+(hi-lo)/2]
+		i, j := lo, hi
+		for i <= j {
+			for a[i] < pivot {
+				i++
+			}
+			for a[j] > pivot {
+				j--
+			}
+			if i <= j {
+				a[i], a[j] = a[j], a[i]
+				i++
+				j--
+			}
+		}
+		switch {
+		case k <= j:
+			hi = j
+		case k >= i:
+			lo = i
+		default:
+			return a[k]
+		}
+	}
+	return a[k]
 }
 
 // resetPools empties the pools and the kept rows.

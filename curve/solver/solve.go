@@ -76,15 +76,15 @@ func solve(pr *Problem, s *Settings) (*Solution, error) {
 	if _, err := coldBasis(t); err != nil {
 		return nil, err
 	}
-	sol, _, err := solveOn(t, pr, s, s.Start, nil)
+	sol, err := solveOn(t, pr, s, s.Start, &carry{})
 	return sol, err
 }
 
 // solveOn solves the problem pr whose internal form is t (with the costs of
-// pr.Tau), starting from start when it fits. r, when not nil, holds the
-// residuals of start on t and is overwritten. It returns the solution and
-// the residuals at it.
-func solveOn(t *table, pr *Problem, s *Settings, start *Solution, r []float64) (*Solution, []float64, error) {
+// pr.Tau), starting from start when it fits. cr carries residuals and row
+// scales from solving a neighbouring problem on t (cr.r holds start's
+// residuals, or is nil); on return cr.r holds the residuals at the answer.
+func solveOn(t *table, pr *Problem, s *Settings, start *Solution, cr *carry) (*Solution, error) {
 	n := pr.X.Rows()
 	method := s.Method
 	var basis []int
@@ -102,33 +102,30 @@ func solveOn(t *table, pr *Problem, s *Settings, start *Solution, r []float64) (
 	if method != Simplex && !s.NoPreprocess && n > PreprocessRows {
 		m := coldMiddle(n, t.p())
 		if basis == nil {
-			r = nil
+			cr.r = nil
 		} else {
 			m = warmMiddle(n, t.p())
-			if r == nil {
-				r = make([]float64, t.rows())
-				t.residuals(r, start.Coef)
+			if cr.r == nil {
+				cr.r = make([]float64, t.rows())
+				t.residuals(cr.r, start.Coef)
 			}
 		}
-		v, r, err = solveReduced(t, n, pr.Tau, r, basis, m, method, s.MaxIter)
-		if v != nil {
-			v.method = Interior
+		v, err = solveReduced(t, n, pr.Tau, cr, basis, m, method, s.MaxIter)
+		if err != nil {
+			return nil, err
 		}
-	} else {
-		if method == Interior {
-			basis = nil
-		}
-		v, err = solveTable(t, basis, method, s.MaxIter)
-		r = nil
+		v.method = Interior
+		return solution(t, v, cr.obj), nil
 	}
-	if err != nil {
-		return nil, nil, err
+	if method == Interior {
+		basis = nil
 	}
-	if r == nil {
-		r = make([]float64, t.rows())
-		t.residuals(r, v.b)
+	if v, err = solveTable(t, basis, method, s.MaxIter); err != nil {
+		return nil, err
 	}
-	return solution(t, v, r), r, nil
+	cr.r = resize(cr.r, t.rows())
+	t.residuals(cr.r, v.b)
+	return solution(t, v, t.objective(cr.r)), nil
 }
 
 // coldMiddle is the number of rows kept by the reduction of n data rows
@@ -150,12 +147,12 @@ func warmMiddle(n, p int) int {
 }
 
 // solution assembles the answer on the caller's numbering from the vertex
-// and the residuals r at it.
-func solution(t *table, v *vertex, r []float64) *Solution {
+// and the objective at it.
+func solution(t *table, v *vertex, obj float64) *Solution {
 	ns := t.nSoft
 	return &Solution{
 		Coef:           slices.Clone(v.b),
-		Objective:      t.objective(r),
+		Objective:      obj,
 		Iterations:     v.iters,
 		Method:         v.method,
 		Basis:          slices.Clone(v.basis),
@@ -210,25 +207,30 @@ func solveGrid(pr *Problem, taus []float64, s *Settings) ([]*Solution, error) {
 			mid = k
 		}
 	}
-	one := func(k int, from *Solution, r []float64) (*Solution, []float64, error) {
+	one := func(k int, from *Solution, cr *carry) (*Solution, error) {
 		q.Tau = taus[order[k]]
 		t.setTau(&q)
-		return solveOn(t, &q, s, from, r)
+		return solveOn(t, &q, s, from, cr)
 	}
-	first, r0, err := one(mid, s.Start, nil)
+	cr := &carry{}
+	first, err := one(mid, s.Start, cr)
 	if err != nil {
 		return nil, err
 	}
 	out[order[mid]] = first
+	r0 := slices.Clone(cr.r)
 	for _, dir := range []int{1, -1} {
-		prev, r := first, slices.Clone(r0)
+		prev := first
+		if dir < 0 {
+			copy(cr.r, r0)
+		}
 		for k := mid + dir; k >= 0 && k < len(order); k += dir {
-			sol, rk, err := one(k, prev, r)
+			sol, err := one(k, prev, cr)
 			if err != nil {
 				return nil, err
 			}
 			out[order[k]] = sol
-			prev, r = sol, rk
+			prev = sol
 		}
 	}
 	return out, nil

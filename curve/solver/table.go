@@ -45,7 +45,8 @@ type part struct {
 }
 
 // newTable builds the internal form of p: data and penalty rows padded to a
-// common width, then the constraint rows.
+// common width, then the constraint rows. Without penalty rows the table
+// shares the caller's design, which it never writes.
 func newTable(pr *Problem) *table {
 	n, q := pr.X.Rows(), pr.X.Cols
 	width := pr.X.Width
@@ -57,7 +58,6 @@ func newTable(pr *Problem) *table {
 	nx := n + nPen
 	total := nx + len(pr.G)
 	t := &table{
-		x:     &Design{Cols: q, Width: width, First: make([]int, nx), Val: make([]float64, nx*width)},
 		wide:  NewDense(pr.G),
 		y:     make([]float64, total),
 		a:     make([]float64, total),
@@ -65,6 +65,15 @@ func newTable(pr *Problem) *table {
 		nSoft: nx,
 	}
 	t.wide.Cols = q
+	if nPen == 0 {
+		// The design is already in banded form; the table only reads it.
+		t.x = pr.X
+		copy(t.y, pr.Y)
+		t.setTau(pr)
+		copy(t.y[nx:], pr.H)
+		return t
+	}
+	t.x = &Design{Cols: q, Width: width, First: make([]int, nx), Val: make([]float64, nx*width)}
 	put := func(i, first int, val []float64) {
 		f := min(first, q-width)
 		t.x.First[i] = f
