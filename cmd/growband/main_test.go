@@ -633,7 +633,7 @@ func TestBadInput(t *testing.T) {
 func TestHelp(t *testing.T) {
 	flags := map[string][]string{
 		"build": {"-out", "-quiet"},
-		"demo":  {"-out", "-measure", "-full"},
+		"demo":  {"-out", "-measure", "-half"},
 		"table": {"-ref", "-ages", "-ages-file", "-centiles", "-stratum", "-format", "-velocity"},
 		"score": {"-ref", "-in", "-age", "-value", "-stratum", "-format", "-age-column", "-birth-column", "-visit-column", "-value-column", "-stratum-column"},
 		"chart": {"-ref", "-points", "-stratum", "-out", "-child-column"},
