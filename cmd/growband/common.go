@@ -334,27 +334,13 @@ func (c *columnFlags) spec(cmd string, r *curve.Reference, fs *flag.FlagSet) (*i
 		s.Stratum = "stratum"
 	}
 	if c.codes != "" {
-		m, err := parseCodes(c.codes)
+		m, err := intake.ParseCodes(c.codes)
 		if err != nil {
 			return nil, usagef(cmd, "%s: --stratum-codes: %v", cmd, err)
 		}
 		s.StratumCodes = m
 	}
 	return s, nil
-}
-
-// parseCodes reads "code=label,code=label".
-func parseCodes(s string) (map[string]string, error) {
-	m := map[string]string{}
-	for _, pair := range strings.Split(s, ",") {
-		code, label, ok := strings.Cut(pair, "=")
-		code, label = strings.TrimSpace(code), strings.TrimSpace(label)
-		if !ok || code == "" || label == "" {
-			return nil, fmt.Errorf("want code=label, got %q", pair)
-		}
-		m[code] = label
-	}
-	return m, nil
 }
 
 // rowStratum is the stratum of a row: the --stratum flag when given (all

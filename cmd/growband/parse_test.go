@@ -6,6 +6,8 @@ import (
 	"math"
 	"strings"
 	"testing"
+
+	"growband/internal/intake"
 )
 
 func TestGrid(t *testing.T) {
@@ -110,7 +112,7 @@ func FuzzParseCodes(f *testing.F) {
 		f.Add(s)
 	}
 	f.Fuzz(func(t *testing.T, s string) {
-		m, err := parseCodes(s)
+		m, err := intake.ParseCodes(s)
 		if err == nil && len(m) == 0 {
 			t.Fatalf("parseCodes(%q): no codes and no error", s)
 		}

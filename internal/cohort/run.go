@@ -139,7 +139,7 @@ func RunCompare(args []string, stdout, stderr io.Writer) error {
 		spec.Stratum = "stratum"
 	}
 	if *codes != "" {
-		m, err := parseCodes(*codes)
+		m, err := intake.ParseCodes(*codes)
 		if err != nil {
 			return usage("--stratum-codes: %v", err)
 		}
@@ -375,20 +375,6 @@ func parseBands(s string) ([]float64, error) {
 		edges = append(edges, x)
 	}
 	return edges, nil
-}
-
-// parseCodes reads "code=label,code=label".
-func parseCodes(s string) (map[string]string, error) {
-	m := map[string]string{}
-	for _, pair := range strings.Split(s, ",") {
-		code, label, ok := strings.Cut(pair, "=")
-		code, label = strings.TrimSpace(code), strings.TrimSpace(label)
-		if !ok || code == "" || label == "" {
-			return nil, fmt.Errorf("want code=label, got %q", pair)
-		}
-		m[code] = label
-	}
-	return m, nil
 }
 
 func writeFile(path string, f func(io.Writer) error) error {

@@ -1,6 +1,7 @@
 package intake
 
 import (
+	"fmt"
 	"strings"
 )
 
@@ -187,4 +188,19 @@ func (p *prepared) label(cell string) (string, bool) {
 		return l, true
 	}
 	return "", false
+}
+
+// ParseCodes reads a stratum code map written "code=label,code=label", as
+// command-line flags give it.
+func ParseCodes(s string) (map[string]string, error) {
+	m := map[string]string{}
+	for _, pair := range strings.Split(s, ",") {
+		code, label, ok := strings.Cut(pair, "=")
+		code, label = strings.TrimSpace(code), strings.TrimSpace(label)
+		if !ok || code == "" || label == "" {
+			return nil, fmt.Errorf("want code=label, got %q", pair)
+		}
+		m[code] = label
+	}
+	return m, nil
 }
