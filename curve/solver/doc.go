@@ -19,5 +19,5 @@
 // method (crossover.go). Large problems are first reduced by fixing the signs
 // of confidently signed residuals (preprocess.go); the answer is verified on
 // the full data, never assumed. A tau grid reuses each solution to reduce the
-// next problem (grid.go).
+// next problem (solve.go).
 package solver

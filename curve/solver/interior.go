@@ -24,6 +24,11 @@ const (
 	// ridgeTries: shifts tried, each 100 times the last, before the normal
 	// matrix is declared singular.
 	ridgeTries = 6
+	// pooledMaxIter bounds the iterations on a table with pooled rows. With
+	// their multipliers fixed, a band too narrow to hold the answer makes
+	// the problem unbounded, which shows as slow convergence; the simplex
+	// method then finds the pooled row at its bound and the band widens.
+	pooledMaxIter = 50
 )
 
 // Kinds of rows in the interior-point method.
@@ -47,7 +52,9 @@ const (
 // accumulated in O(n·w²) for rows of w stored entries and factored by a
 // p-by-p Cholesky decomposition. The predictor and the corrector share Θ, so
 // each iteration accumulates and factors the matrix once; the work per
-// iteration is four passes over the rows.
+// iteration is five passes over the rows (taking the last step and the
+// residuals, the normal equations, the predictor, the corrector's
+// right-hand side, the corrector).
 //
 // Pooled rows (preprocess.go) keep the sign of their residual by
 // construction, so their multiplier is fixed at its bound and they enter only
@@ -67,6 +74,9 @@ func interior(t *table, maxIter int) (b []float64, iters int, err error) {
 	if maxIter <= 0 {
 		maxIter = 200
 	}
+	if t.nSoft > len(t.x.First) {
+		maxIter = min(maxIter, pooledMaxIter)
+	}
 	s := newIPM(t)
 	if err := s.start(); err != nil {
 		return nil, 0, err
@@ -82,14 +92,14 @@ func interior(t *table, maxIter int) (b []float64, iters int, err error) {
 		// Predictor: the affine-scaling direction.
 		s.solve()
 		var aff float64
-		ap, ad, aff = s.predict()
+		ap, ad, aff = s.sweep(true)
 		comp := s.comp
 		sigma := math.Pow(math.Max(aff, 0)/comp, 3)
 		// Corrector: centring plus the second-order term of the predictor.
 		s.target = sigma * comp / float64(max(s.nc, 1))
 		s.correct()
 		s.solve()
-		ap, ad = s.steps()
+		ap, ad, _ = s.sweep(false)
 		ap = math.Min(1, boundaryStep*ap)
 		ad = math.Min(1, boundaryStep*ad)
 		for k := range s.b {
@@ -101,33 +111,34 @@ func interior(t *table, maxIter int) (b []float64, iters int, err error) {
 	return s.b, iters, nil
 }
 
-// ipm is the state of the interior-point method. Per row i: r residual;
-// for free soft rows u, v and their multipliers zu, zv, the dual d, the dual
+// ipm is the state of the interior-point method. Per row i: r the residual
+// at the starting fit; for free soft rows u, v and their multipliers zu, zv, the dual d, the dual
 // residuals ra, rc; for hard rows the slack in u and the multiplier in d.
 // om and q are the Newton weights and right-hand sides, pu and pv the
 // predictor's complementarity products, dd the last direction of d.
 type ipm struct {
-	t                 *table
-	n, ns, p, nc      int
-	ys, cs            float64
-	kind              []uint8
-	r, u, v, zu, zv   []float64
-	d, ra, rc, om, q  []float64
-	izu, izv          []float64 // 1/zu, 1/zv (1/d for hard rows)
-	pu, pv, dd        []float64
-	b, db, rb, rhs    []float64
-	m                 *mat.SymDense
-	chol              mat.Cholesky
-	comp, target      float64
-	factorised, first bool
+	t                *table
+	n, ns, p, nc     int
+	ys, cs           float64
+	kind             []uint8
+	r, u, v, zu, zv  []float64
+	d, ra, rc, om, q []float64
+	izu, izv         []float64 // 1/zu, 1/zv (1/d for hard rows)
+	pu, pv, dd       []float64
+	b, db, rb, rhs   []float64
+	m                *mat.SymDense
+	chol             mat.Cholesky
+	comp, target     float64
+	first            bool
 }
 
 func newIPM(t *table) *ipm {
 	n, ns, p := t.rows(), t.nSoft, t.p()
 	ys, cs := t.scales()
 	s := &ipm{t: t, n: n, ns: ns, p: p, ys: ys, cs: cs, kind: make([]uint8, n), m: mat.NewSymDense(p, nil)}
-	for _, a := range []*[]float64{&s.r, &s.u, &s.v, &s.zu, &s.zv, &s.d, &s.ra, &s.rc, &s.om, &s.q, &s.pu, &s.pv, &s.dd, &s.izu, &s.izv} {
-		*a = make([]float64, n)
+	rowVecs := []*[]float64{&s.r, &s.u, &s.v, &s.zu, &s.zv, &s.d, &s.ra, &s.rc, &s.om, &s.q, &s.pu, &s.pv, &s.dd, &s.izu, &s.izv}
+	for k, a := range rowVectors(n, len(rowVecs)) {
+		*rowVecs[k] = a
 	}
 	for _, a := range []*[]float64{&s.b, &s.db, &s.rb, &s.rhs} {
 		*a = make([]float64, p)
@@ -165,7 +176,7 @@ func (s *ipm) start() error {
 			s.q[i] = t.y[i]
 		}
 	}
-	s.accumulate(true)
+	s.accumulate()
 	if err := s.factor(); err != nil {
 		return err
 	}
@@ -202,31 +213,37 @@ func (s *ipm) start() error {
 	return nil
 }
 
-// accumulate adds sum_i om_i x_i x_i' (when matrix is set) and sum_i
-// x_i om_i q_i into the normal equations.
-func (s *ipm) accumulate(matrix bool) {
+// accumulate sets the normal matrix sum_i om_i x_i x_i', the right-hand
+// side sum_i x_i om_i q_i and the dual residual rb = -sum_i d_i x_i.
+func (s *ipm) accumulate() {
 	raw := s.m.RawSymmetric()
-	if matrix {
-		clear(raw.Data)
-		s.factorised = false
-	}
+	clear(raw.Data)
 	clear(s.rhs)
-	for _, pt := range s.t.parts() {
+	clear(s.rb)
+	for n, pt := range s.t.parts() {
 		w := pt.d.Width
+		if n == 0 && w == 4 {
+			// Cubic B-spline rows: the common case, summed in registers.
+			s.accumulate4(pt.d)
+			continue
+		}
 		for k, f := range pt.d.First {
 			i := pt.off + k
+			x := pt.d.Val[k*w : k*w+w]
+			if di := s.d[i]; di != 0 {
+				rb := s.rb[f : f+w]
+				for m, xm := range x {
+					rb[m] -= di * xm
+				}
+			}
 			o := s.om[i]
 			if o == 0 {
 				continue
 			}
-			x := pt.d.Val[k*w : k*w+w]
 			oq := o * s.q[i]
 			rhs := s.rhs[f : f+w]
 			for k1, x1 := range x {
 				rhs[k1] += x1 * oq
-			}
-			if !matrix {
-				continue
 			}
 			for k1, x1 := range x {
 				if x1 == 0 {
@@ -240,6 +257,83 @@ func (s *ipm) accumulate(matrix bool) {
 			}
 		}
 	}
+}
+
+// accumulate4 is accumulate for the banded rows of width 4 in d (the
+// first part of the table). Consecutive rows that start at the same column
+// are summed in local variables and added to the matrix once per run, which
+// spares a chain of loads and stores through memory on every row.
+func (s *ipm) accumulate4(d *Design) {
+	raw := s.m.RawSymmetric()
+	st := raw.Stride
+	var m00, m01, m02, m03, m11, m12, m13, m22, m23, m33, r0, r1, r2, r3 float64
+	var b0, b1, b2, b3 float64 // sums of d_i x_i
+	cur := -1
+	flush := func() {
+		if cur < 0 {
+			return
+		}
+		a := raw.Data[cur*st+cur:]
+		a[0] += m00
+		a[1] += m01
+		a[2] += m02
+		a[3] += m03
+		a = raw.Data[(cur+1)*st+cur+1:]
+		a[0] += m11
+		a[1] += m12
+		a[2] += m13
+		a = raw.Data[(cur+2)*st+cur+2:]
+		a[0] += m22
+		a[1] += m23
+		raw.Data[(cur+3)*st+cur+3] += m33
+		rhs := s.rhs[cur : cur+4]
+		rhs[0] += r0
+		rhs[1] += r1
+		rhs[2] += r2
+		rhs[3] += r3
+		rb := s.rb[cur : cur+4]
+		rb[0] -= b0
+		rb[1] -= b1
+		rb[2] -= b2
+		rb[3] -= b3
+		m00, m01, m02, m03, m11, m12, m13, m22, m23, m33, r0, r1, r2, r3 = 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0
+		b0, b1, b2, b3 = 0, 0, 0, 0
+	}
+	om, q, dv := s.om[:len(d.First)], s.q[:len(d.First)], s.d[:len(d.First)]
+	for i, f := range d.First {
+		if f != cur {
+			flush()
+			cur = f
+		}
+		x := d.Val[i*4 : i*4+4 : i*4+4]
+		x0, x1, x2, x3 := x[0], x[1], x[2], x[3]
+		di := dv[i]
+		b0 += di * x0
+		b1 += di * x1
+		b2 += di * x2
+		b3 += di * x3
+		o := om[i]
+		if o == 0 {
+			continue
+		}
+		oq := o * q[i]
+		r0 += x0 * oq
+		r1 += x1 * oq
+		r2 += x2 * oq
+		r3 += x3 * oq
+		o0, o1, o2 := o*x0, o*x1, o*x2
+		m00 += o0 * x0
+		m01 += o0 * x1
+		m02 += o0 * x2
+		m03 += o0 * x3
+		m11 += o1 * x1
+		m12 += o1 * x2
+		m13 += o1 * x3
+		m22 += o2 * x2
+		m23 += o2 * x3
+		m33 += o * x3 * x3
+	}
+	flush()
 }
 
 // factor factors the normal matrix, shifting its diagonal when it is not
@@ -282,110 +376,114 @@ func (s *ipm) solve() {
 }
 
 // state takes the previous iteration's step (lengths ap, ad along the
-// directions left in db and dd), computes residuals, reports convergence,
-// and otherwise sets up the predictor's Newton system.
+// directions left in db and dd), computes residuals, sets up the
+// predictor's Newton system and reports convergence.
+//
+// state and sweep are the hot loops: they copy the row vectors to locals,
+// which the compiler keeps in registers and bounds-checks once.
 func (s *ipm) state(ap, ad float64) (converged bool) {
 	t := s.t
-	if !s.first {
-		s.update(ap, ad)
-	}
+	step := !s.first
 	s.first = false
-	clear(s.rb)
+	tg := s.target
+	n := s.n
+	y, ca, cc, kind := t.y[:n], t.a[:n], t.c[:n], s.kind[:n]
+	u, v, zu, zv, d := s.u[:n], s.v[:n], s.zu[:n], s.zv[:n], s.d[:n]
+	ra, rc, izu, izv := s.ra[:n], s.rc[:n], s.izu[:n], s.izv[:n]
+	om, q, pu, pv, dd := s.om[:n], s.q[:n], s.pu[:n], s.pv[:n], s.dd[:n]
+	b := s.b
 	primal, dual := 0.0, 0.0
 	pinf, dinf, comp := 0.0, 0.0, 0.0
 	for _, pt := range t.parts() {
 		w := pt.d.Width
-		for k, f := range pt.d.First {
-			i := pt.off + k
-			x := pt.d.Val[k*w : k*w+w]
-			bb := s.b[f : f+w]
+		// Windows on this part's rows, indexed by k: their lengths match
+		// First, which spares a bounds check on every access.
+		nr, lo := len(pt.d.First), pt.off
+		y, ca, cc, kind := window(y, lo, nr), window(ca, lo, nr), window(cc, lo, nr), window(kind, lo, nr)
+		u, v, zu, zv, d := window(u, lo, nr), window(v, lo, nr), window(zu, lo, nr), window(zv, lo, nr), window(d, lo, nr)
+		ra, rc, izu, izv := window(ra, lo, nr), window(rc, lo, nr), window(izu, lo, nr), window(izv, lo, nr)
+		om, q, pu, pv, dd := window(om, lo, nr), window(q, lo, nr), window(pu, lo, nr), window(pv, lo, nr), window(dd, lo, nr)
+		for i, f := range pt.d.First {
+			x := pt.d.Val[i*w : i*w+w]
+			bb := b[f : f+w]
+			bb = bb[:len(x)]
 			xb := 0.0
 			for m, xm := range x {
 				xb += xm * bb[m]
 			}
-			r := t.y[i] - xb
-			s.r[i] = r
-			di := s.d[i]
-			if di != 0 {
-				rb := s.rb[f : f+w]
-				for m, xm := range x {
-					rb[m] -= di * xm
-				}
-				dual += t.y[i] * di
-			}
-			switch s.kind[i] {
+			r := y[i] - xb
+			di := d[i]
+			switch kind[i] {
 			case rowFree:
-				u, v, zu, zv := s.u[i], s.v[i], s.zu[i], s.zv[i]
-				primal += t.a[i]*u + t.c[i]*v
-				pinf = max(pinf, math.Abs(r-u+v))
-				ra := t.a[i] - di - zu
-				rc := t.c[i] + di - zv
-				s.ra[i], s.rc[i] = ra, rc
-				dinf = max(dinf, math.Abs(ra), math.Abs(rc))
-				comp += u*zu + v*zv
-				izu, izv := 1/zu, 1/zv
-				s.izu[i], s.izv[i] = izu, izv
-				s.om[i] = 1 / (u*izu + v*izv)
-				s.q[i] = r - u*ra*izu + v*rc*izv
+				ui, vi, zui, zvi := u[i], v[i], zu[i], zv[i]
+				if step {
+					// Take the previous iteration's step for this row.
+					ddi := dd[i]
+					du, dv, dzu, dzv := dirFree(ui, vi, ra[i], rc[i], izu[i], izv[i], ddi, tg-pu[i], tg-pv[i])
+					ui, vi, zui, zvi, di = ui+ap*du, vi+ap*dv, zui+ad*dzu, zvi+ad*dzv, di+ad*ddi
+					u[i], v[i], zu[i], zv[i], d[i] = ui, vi, zui, zvi, di
+				}
+				dual += y[i] * di
+				primal += ca[i]*ui + cc[i]*vi
+				pinf = max(pinf, math.Abs(r-ui+vi))
+				rai := ca[i] - di - zui
+				rci := cc[i] + di - zvi
+				ra[i], rc[i] = rai, rci
+				dinf = max(dinf, math.Abs(rai), math.Abs(rci))
+				comp += ui*zui + vi*zvi
+				izui, izvi := 1/zui, 1/zvi
+				izu[i], izv[i] = izui, izvi
+				om[i] = 1 / (ui*izui + vi*izvi)
+				q[i] = r - ui*rai*izui + vi*rci*izvi
 			case rowFixed:
+				dual += y[i] * di
 				primal += di * r
-				s.om[i] = 0
+				om[i] = 0
 			case rowHard:
-				sl := s.u[i]
+				sl := u[i]
+				if step {
+					ddi := dd[i]
+					sl += ap * dirHard(sl, izu[i], ddi, tg-pu[i])
+					di += ad * ddi
+					u[i], d[i] = sl, di
+				}
+				dual += y[i] * di
 				pinf = max(pinf, math.Abs(r+sl))
 				comp += sl * di
-				s.izu[i] = 1 / di
-				s.om[i] = di / sl
-				s.q[i] = r
+				izu[i] = 1 / di
+				om[i] = di / sl
+				q[i] = r
 			}
 		}
 	}
+	// The normal equations are set up before the test for convergence
+	// because the same pass yields the dual residual rb.
+	s.accumulate()
 	for _, x := range s.rb {
 		dinf = max(dinf, math.Abs(x))
 	}
 	s.comp = comp
-	if math.Abs(primal-dual) <= gapTol*(1+math.Abs(primal)) && pinf <= feasTol*s.ys && dinf <= feasTol*s.cs*(1+float64(s.p)) {
-		return true
-	}
-	s.accumulate(true)
-	return false
+	return math.Abs(primal-dual) <= gapTol*(1+math.Abs(primal)) && pinf <= feasTol*s.ys && dinf <= feasTol*s.cs*(1+float64(s.p))
 }
 
-// directions sets dd_i = om_i (q_i - x_i'db) for every row.
-func (s *ipm) directions() {
-	for _, pt := range s.t.parts() {
-		w := pt.d.Width
-		for k, f := range pt.d.First {
-			i := pt.off + k
-			if s.om[i] == 0 {
-				s.dd[i] = 0
-				continue
-			}
-			x := pt.d.Val[k*w : k*w+w]
-			db := s.db[f : f+w]
-			xdb := 0.0
-			for m, xm := range x {
-				xdb += xm * db[m]
-			}
-			s.dd[i] = s.om[i] * (s.q[i] - xdb)
-		}
-	}
-}
+// window returns the n elements of a from lo, with length n for the
+// compiler's bounds-check elimination.
+func window[T any](a []T, lo, n int) []T { return a[lo:][:n] }
 
-// dirFree returns the steps of u, v, zu, zv of free row i given dd_i, for
+// dirFree returns the steps of u, v, zu, zv of a free row given its dd, for
 // which the linearised products (u+du)(zu+dzu) and (v+dv)(zv+dzv) equal tu
-// and tv.
-func (s *ipm) dirFree(i int, dd, tu, tv float64) (du, dv, dzu, dzv float64) {
-	u, v := s.u[i], s.v[i]
-	du = (tu+u*(s.ra[i]+dd))*s.izu[i] - u
-	dv = (tv+v*(s.rc[i]-dd))*s.izv[i] - v
-	return du, dv, -s.ra[i] - dd, dd - s.rc[i]
+// and tv (ra, rc are its dual residuals, izu = 1/zu, izv = 1/zv).
+func dirFree(u, v, ra, rc, izu, izv, dd, tu, tv float64) (du, dv, dzu, dzv float64) {
+	du = (tu+u*(ra+dd))*izu - u
+	dv = (tv+v*(rc-dd))*izv - v
+	return du, dv, -ra - dd, dd - rc
 }
 
-// dirHard returns the step of the slack of hard row i given dd_i, for which
-// the linearised product of slack and multiplier equals ts.
-func (s *ipm) dirHard(i int, dd, ts float64) float64 {
-	return (ts-s.u[i]*dd)*s.izu[i] - s.u[i]
+// dirHard returns the step of the slack sl of a hard row given its dd, for
+// which the linearised product of slack and multiplier equals ts (id is 1
+// over the multiplier).
+func dirHard(sl, id, dd, ts float64) float64 {
+	return (ts-sl*dd)*id - sl
 }
 
 // limit returns the largest a' <= a with x + a'dx >= 0 (x >= 0), dividing
@@ -397,34 +495,78 @@ func limit(a, x, dx float64) float64 {
 	return a
 }
 
-// predict computes the affine-scaling direction in db, its step lengths,
-// the complementarity it would reach, and stores its products for the
-// corrector.
-func (s *ipm) predict() (ap, ad, aff float64) {
-	s.target = 0
-	s.directions()
+// sweep computes the direction of every row from db (dd_i = om_i (q_i -
+// x_i'db) and the steps it implies) and returns the longest steps that keep
+// the variables non-negative. For the predictor it also stores the
+// complementarity products for the corrector and returns the
+// complementarity the step would reach.
+func (s *ipm) sweep(predictor bool) (ap, ad, aff float64) {
+	tg := s.target
+	if predictor {
+		tg = 0
+	}
+	n := s.n
+	kind := s.kind[:n]
+	u, v, zu, zv, d := s.u[:n], s.v[:n], s.zu[:n], s.zv[:n], s.d[:n]
+	ra, rc, izu, izv := s.ra[:n], s.rc[:n], s.izu[:n], s.izv[:n]
+	om, q, pu, pv, dd := s.om[:n], s.q[:n], s.pu[:n], s.pv[:n], s.dd[:n]
+	db := s.db
 	ap, ad = 1, 1
 	var s1, s2, s3 float64 // sums of dx*z, x*dz, dx*dz
-	for i := 0; i < s.n; i++ {
-		dd := s.dd[i]
-		switch s.kind[i] {
-		case rowFree:
-			du, dv, dzu, dzv := s.dirFree(i, dd, 0, 0)
-			ap = limit(limit(ap, s.u[i], du), s.v[i], dv)
-			ad = limit(limit(ad, s.zu[i], dzu), s.zv[i], dzv)
-			s1 += du*s.zu[i] + dv*s.zv[i]
-			s2 += s.u[i]*dzu + s.v[i]*dzv
-			pu, pv := du*dzu, dv*dzv
-			s3 += pu + pv
-			s.pu[i], s.pv[i] = pu, pv
-		case rowHard:
-			ds := s.dirHard(i, dd, 0)
-			ap = limit(ap, s.u[i], ds)
-			ad = limit(ad, s.d[i], dd)
-			s1 += ds * s.d[i]
-			s2 += s.u[i] * dd
-			s3 += ds * dd
-			s.pu[i] = ds * dd
+	for _, pt := range s.t.parts() {
+		w := pt.d.Width
+		// Windows on this part's rows, as in state.
+		nr, lo := len(pt.d.First), pt.off
+		kind := window(kind, lo, nr)
+		u, v, zu, zv, d := window(u, lo, nr), window(v, lo, nr), window(zu, lo, nr), window(zv, lo, nr), window(d, lo, nr)
+		ra, rc, izu, izv := window(ra, lo, nr), window(rc, lo, nr), window(izu, lo, nr), window(izv, lo, nr)
+		om, q, pu, pv, dd := window(om, lo, nr), window(q, lo, nr), window(pu, lo, nr), window(pv, lo, nr), window(dd, lo, nr)
+		for i, f := range pt.d.First {
+			if om[i] == 0 {
+				dd[i] = 0
+				continue
+			}
+			x := pt.d.Val[i*w : i*w+w]
+			dbf := db[f : f+w]
+			dbf = dbf[:len(x)]
+			xdb := 0.0
+			for m, xm := range x {
+				xdb += xm * dbf[m]
+			}
+			ddi := om[i] * (q[i] - xdb)
+			dd[i] = ddi
+			switch kind[i] {
+			case rowFree:
+				tu, tv := 0.0, 0.0
+				if !predictor {
+					tu, tv = tg-pu[i], tg-pv[i]
+				}
+				ui, vi, zui, zvi := u[i], v[i], zu[i], zv[i]
+				du, dv, dzu, dzv := dirFree(ui, vi, ra[i], rc[i], izu[i], izv[i], ddi, tu, tv)
+				ap = limit(limit(ap, ui, du), vi, dv)
+				ad = limit(limit(ad, zui, dzu), zvi, dzv)
+				if predictor {
+					s1 += du*zui + dv*zvi
+					s2 += ui*dzu + vi*dzv
+					pui, pvi := du*dzu, dv*dzv
+					s3 += pui + pvi
+					pu[i], pv[i] = pui, pvi
+				}
+			case rowHard:
+				ts := 0.0
+				if !predictor {
+					ts = tg - pu[i]
+				}
+				ds := dirHard(u[i], izu[i], ddi, ts)
+				ap = limit(ap, u[i], ds)
+				ad = limit(ad, d[i], ddi)
+				if predictor {
+					s1 += ds * d[i]
+					s2 += u[i] * ddi
+					s3 += ds * ddi
+					pu[i] = ds * ddi
+				}
+			}
 		}
 	}
 	aff = s.comp + ap*s1 + ad*s2 + ap*ad*s3
@@ -435,54 +577,29 @@ func (s *ipm) predict() (ap, ad, aff float64) {
 // reusing the predictor's factor.
 func (s *ipm) correct() {
 	tg := s.target
-	for i := 0; i < s.n; i++ {
-		switch s.kind[i] {
-		case rowFree:
-			s.q[i] += (s.pu[i]-tg)*s.izu[i] - (s.pv[i]-tg)*s.izv[i]
-		case rowHard:
-			s.q[i] += (tg - s.pu[i]) * s.izu[i]
-		}
-	}
-	s.accumulate(false)
-}
-
-// steps computes the corrector's directions and returns the longest steps
-// that keep the variables non-negative.
-func (s *ipm) steps() (ap, ad float64) {
-	s.directions()
-	tg := s.target
-	ap, ad = 1, 1
-	for i := 0; i < s.n; i++ {
-		dd := s.dd[i]
-		switch s.kind[i] {
-		case rowFree:
-			du, dv, dzu, dzv := s.dirFree(i, dd, tg-s.pu[i], tg-s.pv[i])
-			ap = limit(limit(ap, s.u[i], du), s.v[i], dv)
-			ad = limit(limit(ad, s.zu[i], dzu), s.zv[i], dzv)
-		case rowHard:
-			ap = limit(ap, s.u[i], s.dirHard(i, dd, tg-s.pu[i]))
-			ad = limit(ad, s.d[i], dd)
-		}
-	}
-	return ap, ad
-}
-
-// update moves the row variables along the corrector's directions.
-func (s *ipm) update(ap, ad float64) {
-	tg := s.target
-	for i := 0; i < s.n; i++ {
-		dd := s.dd[i]
-		switch s.kind[i] {
-		case rowFree:
-			du, dv, dzu, dzv := s.dirFree(i, dd, tg-s.pu[i], tg-s.pv[i])
-			s.u[i] += ap * du
-			s.v[i] += ap * dv
-			s.zu[i] += ad * dzu
-			s.zv[i] += ad * dzv
-			s.d[i] += ad * dd
-		case rowHard:
-			s.u[i] += ap * s.dirHard(i, dd, tg-s.pu[i])
-			s.d[i] += ad * dd
+	clear(s.rhs)
+	for _, pt := range s.t.parts() {
+		w := pt.d.Width
+		// Windows on this part's rows, as in state.
+		nr, lo := len(pt.d.First), pt.off
+		kind, q, om := window(s.kind, lo, nr), window(s.q, lo, nr), window(s.om, lo, nr)
+		pu, pv, izu, izv := window(s.pu, lo, nr), window(s.pv, lo, nr), window(s.izu, lo, nr), window(s.izv, lo, nr)
+		for i, f := range pt.d.First {
+			switch kind[i] {
+			case rowFree:
+				q[i] += (pu[i]-tg)*izu[i] - (pv[i]-tg)*izv[i]
+			case rowHard:
+				q[i] += (tg - pu[i]) * izu[i]
+			default:
+				continue
+			}
+			oq := om[i] * q[i]
+			x := pt.d.Val[i*w : i*w+w]
+			rhs := s.rhs[f : f+w]
+			rhs = rhs[:len(x)]
+			for m, xm := range x {
+				rhs[m] += xm * oq
+			}
 		}
 	}
 }

@@ -9,8 +9,9 @@ import (
 // Settings of the sign-fixing reduction.
 const (
 	// repairShare: when more than this share of the middle set's size has
-	// wrongly fixed signs, the middle set is doubled and the reduction
-	// rebuilt instead of repaired row by row (Portnoy & Koenker 1997).
+	// wrongly fixed signs, the reduction is rebuilt instead of repaired row
+	// by row: around the reduced answer when the first fit came from a
+	// subsample, else with the middle set doubled (Portnoy & Koenker 1997).
 	repairShare = 0.1
 	// rankSample: residual quantiles that place the thresholds are read off
 	// this many evenly spaced rows.
@@ -56,8 +57,9 @@ type reduction struct {
 //     for the quantile regression process. Empirical Economics 62, 7–33.
 func solveReduced(full *table, nData int, tau float64, cr *carry, basis []int, m int, method Method, maxIter int) (*vertex, error) {
 	iters := 0
-	if cr.r == nil {
-		cr.r = make([]float64, full.rows())
+	rough := cr.r == nil
+	if rough {
+		cr.alloc(full.rows())
 		sub := subsample(full, nData, m)
 		b, it, err := interior(sub, maxIter)
 		if err != nil {
@@ -67,17 +69,20 @@ func solveReduced(full *table, nData int, tau float64, cr *carry, basis []int, m
 		full.residuals(cr.r, b)
 		basis = nil
 	}
-	r := cr.r
+	// guess holds the residuals that the rows are classified by; at holds
+	// those of the latest reduced answer.
+	cr.alloc(full.rows())
+	guess, at := cr.r, cr.spare
 	ys, _ := full.scales()
 	tol := zeroResidual * ys
 	red := &reduction{full: full, nData: nData, sign: make([]int8, nData)}
-	repairs, restarts, restart := 0, 0, true
+	repairs, restart := 0, true
 	for {
 		if restart {
 			if cr.scale == nil {
-				cr.scale = rowScales(full.x, r[:nData])
+				cr.scale = rowScales(full.x, guess[:nData])
 			}
-			red.classify(r[:nData], cr.scale, tau, m)
+			red.classify(guess[:nData], cr.scale, tau, m)
 		}
 		t := red.table()
 		start := red.mapBasis(basis, t)
@@ -90,44 +95,59 @@ func solveReduced(full *table, nData int, tau float64, cr *carry, basis []int, m
 		if err != nil {
 			return nil, err
 		}
-		v.toFull(t, full)
+		// The basis in full-table rows; the duals follow once verified.
+		for k, i := range v.basis {
+			v.basis[k] = t.orig[i]
+		}
 		iters += v.iters
 		if slices.Contains(v.basis, -1) {
-			// A pooled row holds with equality: the pool was far too wide.
+			// A pooled row holds with equality: the band was far too narrow
+			// for the reduced problem to resemble the full one, so its
+			// vertex is no guide. Widen the band around the same fit.
 			repairs++
 			m, restart, basis = min(2*m, nData), true, nil
-			full.residuals(r, v.b)
 			continue
 		}
-		bad, obj := red.verify(r, v.b, tol)
+		dual := make([]float64, full.rows())
+		bad, obj := red.verify(at, dual, v.b, tol)
 		if len(bad) == 0 {
-			for i, s := range red.sign {
-				switch s {
-				case 1:
-					v.dual[i] = full.a[i]
-				case -1:
-					v.dual[i] = -full.c[i]
+			for k, i := range t.orig {
+				if i >= 0 {
+					dual[i] = v.dual[k]
 				}
 			}
+			v.dual = dual
 			v.iters, v.repairs = iters, repairs
-			cr.obj = obj
+			cr.r, cr.spare, cr.obj = at, guess, obj
 			return v, nil
 		}
 		repairs++
 		basis = v.basis
 		restart = float64(len(bad)) > repairShare*float64(m)
-		if restart {
-			// The first time, the classification came from a rougher fit
-			// than the reduced optimum now at hand: classify again around
-			// it before widening the band.
-			if restarts > 0 {
-				m = min(2*m, nData)
-			}
-			restarts++
+		if !restart {
+			red.unpool(bad)
 			continue
 		}
-		red.unpool(bad)
+		if rough {
+			// The classification came from a subsample's fit, rougher than
+			// the reduced optimum now at hand: classify again around it.
+			guess, at = at, guess
+			rough = false
+			continue
+		}
+		// Around a good fit the band was too narrow: widen it.
+		m, basis = min(2*m, nData), nil
 	}
+}
+
+// alloc makes sure both residual buffers hold n rows, keeping r.
+func (cr *carry) alloc(n int) {
+	if len(cr.r) == n && len(cr.spare) == n {
+		return
+	}
+	v := rowVectors(n, 2)
+	copy(v[0], cr.r)
+	cr.r, cr.spare = v[0], v[1]
 }
 
 // carry is what a reduced solve leaves for the next on the same table.
@@ -139,30 +159,44 @@ type carry struct {
 	scale []float64
 	// obj is the objective at r after a solve.
 	obj float64
+	// spare is a second residual buffer, so that a failed reduction can
+	// fall back on the fit it started from.
+	spare []float64
 }
 
 // verify writes the full residuals at b into r and returns the pooled rows
 // whose residual has the wrong sign (beyond tol), and the objective at b.
-func (red *reduction) verify(r, b []float64, tol float64) (bad []int, obj float64) {
+// It also writes the multipliers of the pooled rows, a_i or -c_i, into dual.
+func (red *reduction) verify(r, dual, b []float64, tol float64) (bad []int, obj float64) {
 	f := red.full
 	x := f.x
 	w := x.Width
+	n := len(red.sign)
+	first, y, a, c, rd, dd := x.First[:n], f.y[:n], f.a[:n], f.c[:n], r[:n], dual[:n]
 	for i, s := range red.sign {
-		fi := x.First[i]
+		fi := first[i]
+		xi := x.Val[i*w : i*w+w]
 		bb := b[fi : fi+w]
+		bb = bb[:len(xi)]
 		xb := 0.0
-		for k, v := range x.Val[i*w : i*w+w] {
+		for k, v := range xi {
 			xb += v * bb[k]
 		}
-		ri := f.y[i] - xb
-		r[i] = ri
+		ri := y[i] - xb
+		rd[i] = ri
+		switch s {
+		case 1:
+			dd[i] = a[i]
+		case -1:
+			dd[i] = -c[i]
+		}
 		if ri > 0 {
-			obj += f.a[i] * ri
+			obj += a[i] * ri
 			if s < 0 && ri > tol {
 				bad = append(bad, i)
 			}
 		} else {
-			obj -= f.c[i] * ri
+			obj -= c[i] * ri
 			if s > 0 && ri < -tol {
 				bad = append(bad, i)
 			}
@@ -249,6 +283,11 @@ func (red *reduction) classify(r, scale []float64, tau float64, m int) {
 		return nth(sample, min(max(k, 0), len(sample)-1))
 	}
 	klo, khi := math.Inf(-1), math.Inf(1)
+	if m >= n {
+		// The band is the whole data: keep every row, so that widening
+		// the band always ends.
+		lo, hi = 0, 1
+	}
 	if lo > 0 {
 		klo = at(lo)
 	}
@@ -258,29 +297,31 @@ func (red *reduction) classify(r, scale []float64, tau float64, m int) {
 	red.resetPools()
 	f := red.full
 	up, down := red.up, red.down
+	r, scale = r[:n], scale[:n]
+	sign, y, ca, cc := red.sign[:n], f.y[:n], f.a[:n], f.c[:n]
 	for i, fi := range x.First[:n] {
 		s := r[i] * scale[i]
 		switch {
 		case s < klo:
-			red.sign[i] = -1
-			c := f.c[i]
+			sign[i] = -1
+			c := cc[i]
 			d := down[fi : fi+w]
 			for k, v := range x.Val[i*w : i*w+w] {
 				d[k] += c * v
 			}
-			red.downY += c * f.y[i]
+			red.downY += c * y[i]
 			red.downW += c
 		case s > khi:
-			red.sign[i] = 1
-			a := f.a[i]
+			sign[i] = 1
+			a := ca[i]
 			u := up[fi : fi+w]
 			for k, v := range x.Val[i*w : i*w+w] {
 				u[k] += a * v
 			}
-			red.upY += a * f.y[i]
+			red.upY += a * y[i]
 			red.upW += a
 		default:
-			red.sign[i] = 0
+			sign[i] = 0
 			red.keep = append(red.keep, i)
 		}
 	}

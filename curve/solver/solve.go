@@ -48,23 +48,6 @@ func solveTable(t *table, basis []int, method Method, maxIter int) (*vertex, err
 	return &vertex{b: s.b, basis: s.basis, dual: s.dual(), iters: iters + s.iter, method: method}, nil
 }
 
-// toFull renumbers v from the rows of t to the rows of full.
-func (v *vertex) toFull(t *table, full *table) {
-	if t.orig == nil {
-		return
-	}
-	for k, i := range v.basis {
-		v.basis[k] = t.orig[i]
-	}
-	d := make([]float64, full.rows())
-	for k, i := range t.orig {
-		if i >= 0 {
-			d[i] = v.dual[k]
-		}
-	}
-	v.dual = d
-}
-
 func solve(pr *Problem, s *Settings) (*Solution, error) {
 	if err := pr.validate(); err != nil {
 		return nil, err
@@ -106,7 +89,7 @@ func solveOn(t *table, pr *Problem, s *Settings, start *Solution, cr *carry) (*S
 		} else {
 			m = warmMiddle(n, t.p())
 			if cr.r == nil {
-				cr.r = make([]float64, t.rows())
+				cr.alloc(t.rows())
 				t.residuals(cr.r, start.Coef)
 			}
 		}
@@ -138,7 +121,7 @@ func coldMiddle(n, p int) int {
 // about sqrt(p/n) of the answer's, so the band around its shift in level
 // holds warmMiddleScale*sqrt(p*n) extra rows (Chernozhukov, Fernández-Val &
 // Melly 2022 keep a band of this order).
-const warmMiddleScale = 3
+const warmMiddleScale = 3.0
 
 // warmMiddle is the extra number of rows kept around the shift in level
 // when the reduction starts from a neighbouring solution.

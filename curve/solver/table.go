@@ -57,11 +57,12 @@ func newTable(pr *Problem) *table {
 	}
 	nx := n + nPen
 	total := nx + len(pr.G)
+	vec := rowVectors(total, 3)
 	t := &table{
 		wide:  NewDense(pr.G),
-		y:     make([]float64, total),
-		a:     make([]float64, total),
-		c:     make([]float64, total),
+		y:     vec[0],
+		a:     vec[1],
+		c:     vec[2],
 		nSoft: nx,
 	}
 	t.wide.Cols = q
@@ -100,6 +101,26 @@ func newTable(pr *Problem) *table {
 	return t
 }
 
+// Layout of vectors over the rows, in float64s (see rowVectors).
+const (
+	aliasPage = 512 // 4 KiB
+	aliasLine = 8   // one 64-byte cache line
+)
+
+// rowVectors returns k vectors of length n in one allocation, each starting
+// a further cache line past a 4 KiB boundary. Vectors at the same offset
+// modulo 4 KiB make the processor stall loads behind unrelated stores (4K
+// aliasing), and the hot loops touch element i of several together.
+func rowVectors(n, k int) [][]float64 {
+	stride := (n+aliasPage-1)/aliasPage*aliasPage + aliasLine
+	buf := make([]float64, stride*k)
+	out := make([][]float64, k)
+	for j := range out {
+		out[j] = buf[j*stride : j*stride+n : j*stride+n]
+	}
+	return out
+}
+
 // setTau sets the data rows' costs for pr.Tau; the rest of the table is
 // the same at every tau.
 func (t *table) setTau(pr *Problem) {
@@ -117,12 +138,18 @@ func (t *table) setTau(pr *Problem) {
 func (t *table) residuals(r, b []float64) {
 	for _, pt := range t.parts() {
 		w := pt.d.Width
+		nr := len(pt.d.First)
+		// Windows whose lengths match First spare bounds checks.
+		rp, yp := r[pt.off:][:nr], t.y[pt.off:][:nr]
 		for i, f := range pt.d.First {
+			xi := pt.d.Val[i*w : i*w+w]
+			bb := b[f : f+w]
+			bb = bb[:len(xi)]
 			s := 0.0
-			for k, x := range pt.d.Val[i*w : i*w+w] {
-				s += x * b[f+k]
+			for k, x := range xi {
+				s += x * bb[k]
 			}
-			r[pt.off+i] = t.y[pt.off+i] - s
+			rp[i] = yp[i] - s
 		}
 	}
 }
