@@ -436,3 +436,22 @@ func TestFitAgeScale(t *testing.T) {
 		t.Errorf("smoothness %+v", st.Smoothness)
 	}
 }
+
+// testModel prepares the first group of d under c and its design at the
+// first candidate knot set.
+func testModel(t *testing.T, d *Data, c *config) (*rows, *model) {
+	t.Helper()
+	groups, _, err := prepare(d, c)
+	if err != nil {
+		t.Fatal(err)
+	}
+	sets, err := knotSets(groups[0], c)
+	if err != nil {
+		t.Fatal(err)
+	}
+	m, err := newModel(groups[0], sets[0], c.degree, c.order)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return groups[0], m
+}

@@ -51,19 +51,7 @@ func TestUnconstrainedCross(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	groups, _, err := prepare(crossingData(), c)
-	if err != nil {
-		t.Fatal(err)
-	}
-	r := groups[0]
-	sets, err := knotSets(r, c)
-	if err != nil {
-		t.Fatal(err)
-	}
-	m, err := newModel(r, sets[0], c.degree, c.order)
-	if err != nil {
-		t.Fatal(err)
-	}
+	r, m := testModel(t, crossingData(), c)
 	taus, _ := tauGrid(c.chart, guardWindows(r, c.windows, c.scale), c.guardMin)
 	pl := newPool(2)
 	mid := slices.Index(taus, 0.5)

@@ -131,19 +131,7 @@ func TestSICEdf(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	groups, _, err := prepare(shapeData(300, 26, wiggly), c)
-	if err != nil {
-		t.Fatal(err)
-	}
-	r := groups[0]
-	sets, err := knotSets(r, c)
-	if err != nil {
-		t.Fatal(err)
-	}
-	m, err := newModel(r, sets[0], c.degree, c.order)
-	if err != nil {
-		t.Fatal(err)
-	}
+	r, m := testModel(t, shapeData(300, 26, wiggly), c)
 	sols, err := fitEach(newPool(1), m.x, r.y, r.w, nil, 0, []float64{0.5})
 	if err != nil {
 		t.Fatal(err)
