@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -62,12 +63,18 @@ func certificateErrors(p *Problem, sol *Solution, tol float64) []string {
 		r = p.Penalty.Rows()
 	}
 	m := len(p.G)
-	if len(sol.Coef) != q || len(sol.Dual) != n+r || len(sol.ConstraintDual) != m {
-		bad("shape: %d coefficients, %d duals, %d constraint duals; want %d, %d (%d data + %d penalty), %d",
-			len(sol.Coef), len(sol.Dual), len(sol.ConstraintDual), q, n+r, n, r, m)
+	if len(sol.Coef) != q || len(sol.Zero) != len(sol.ZeroDual) || len(sol.ConstraintDual) != m {
+		bad("shape: %d coefficients, %d zero rows with %d duals, %d constraint duals; want %d, equal, %d",
+			len(sol.Coef), len(sol.Zero), len(sol.ZeroDual), len(sol.ConstraintDual), q, m)
 		return errs
 	}
-	for _, v := range [][]float64{sol.Coef, sol.Dual, sol.ConstraintDual, {sol.Objective}} {
+	for k, i := range sol.Zero {
+		if i < 0 || i >= n+r || (k > 0 && i <= sol.Zero[k-1]) {
+			bad("zero rows not increasing soft rows: %v", sol.Zero)
+			return errs
+		}
+	}
+	for _, v := range [][]float64{sol.Coef, sol.ZeroDual, sol.ConstraintDual, {sol.Objective}} {
 		for _, x := range v {
 			if !finite(x) {
 				bad("non-finite value in solution")
@@ -113,15 +120,28 @@ func certificateErrors(p *Problem, sol *Solution, tol float64) []string {
 		return s, scale
 	}
 
-	// Objective recomputed from Coef.
+	// Objective recomputed from Coef, and the multipliers expanded: those of
+	// the rows listed in Zero as given, the others by their residual's sign
+	// (the convention documented on Solution.Zero), computed here anew.
 	obj := 0.0
+	duals := make([]float64, n+r)
 	for k, rw := range rows {
 		res, _ := residual(k)
 		if res > 0 {
 			obj += rw.a * res
+			duals[k] = rw.a
 		} else {
 			obj -= rw.c * res
+			if res < 0 {
+				duals[k] = -rw.c
+			}
 		}
+	}
+	for k, i := range sol.Zero {
+		duals[i] = sol.ZeroDual[k]
+	}
+	if got := sol.Duals(p); !slices.Equal(got, duals) {
+		bad("Solution.Duals disagrees with the certificate's expansion of Zero")
 	}
 	if math.Abs(obj-sol.Objective) > tol*(1+math.Abs(obj)) {
 		bad("objective %.15g, recomputed from Coef %.15g", sol.Objective, obj)
@@ -152,7 +172,7 @@ func certificateErrors(p *Problem, sol *Solution, tol float64) []string {
 
 	// Dual feasibility: box and residual signs.
 	for k, rw := range rows {
-		d := sol.Dual[k]
+		d := duals[k]
 		res, scale := residual(k)
 		lim := tol * (1 + rw.a + rw.c)
 		what := fmt.Sprintf("data row %d", k)
@@ -177,8 +197,8 @@ func certificateErrors(p *Problem, sol *Solution, tol float64) []string {
 	for k, rw := range rows {
 		f, v := rw.d.Row(rw.i)
 		for l, x := range v {
-			sum[f+l] += x * sol.Dual[k]
-			abs[f+l] += math.Abs(x * sol.Dual[k])
+			sum[f+l] += x * duals[k]
+			abs[f+l] += math.Abs(x * duals[k])
 		}
 	}
 	for j, g := range p.G {
@@ -196,8 +216,8 @@ func certificateErrors(p *Problem, sol *Solution, tol float64) []string {
 	// Primal-dual gap: objective = y'd + h'mu (penalty rows have y = 0).
 	dual, dabs := 0.0, 0.0
 	for k := 0; k < n; k++ {
-		dual += p.Y[k] * sol.Dual[k]
-		dabs += math.Abs(p.Y[k] * sol.Dual[k])
+		dual += p.Y[k] * duals[k]
+		dabs += math.Abs(p.Y[k] * duals[k])
 	}
 	for j, mu := range sol.ConstraintDual {
 		dual += p.H[j] * mu
@@ -282,20 +302,21 @@ func TestCertificateAcceptsHandSolved(t *testing.T) {
 	x := NewDense([][]float64{{1}, {1}, {1}})
 	p := &Problem{Y: []float64{1, 2, 4}, X: x, Tau: 0.5}
 	sol := &Solution{Coef: []float64{2}, Objective: 1.5, Basis: []int{1},
-		Dual: []float64{-0.5, 0, 0.5}, ConstraintDual: []float64{}}
+		Zero: []int{1}, ZeroDual: []float64{0}, ConstraintDual: []float64{}}
 	if errs := certificateErrors(p, sol, 1e-12); len(errs) > 0 {
 		t.Errorf("unconstrained median rejected: %v", errs)
 	}
 	pc := &Problem{Y: []float64{1, 2, 4}, X: x, Tau: 0.5, G: [][]float64{{1}}, H: []float64{3}}
 	solc := &Solution{Coef: []float64{3}, Objective: 2, Basis: []int{3},
-		Dual: []float64{-0.5, -0.5, 0.5}, ConstraintDual: []float64{0.5}}
+		ConstraintDual: []float64{0.5}}
 	if errs := certificateErrors(pc, solc, 1e-12); len(errs) > 0 {
 		t.Errorf("constrained median rejected: %v", errs)
 	}
 	// The unconstrained median violates the constraint; the constrained
 	// answer without mu is not stationary.
 	wrong := *solc
-	wrong.Coef, wrong.Objective, wrong.Dual, wrong.Basis = []float64{2}, 1.5, []float64{-0.5, 0, 0.5}, []int{1}
+	wrong.Coef, wrong.Objective, wrong.Basis = []float64{2}, 1.5, []int{1}
+	wrong.Zero, wrong.ZeroDual = []int{1}, []float64{0}
 	wrong.ConstraintDual = []float64{0}
 	if errs := certificateErrors(pc, &wrong, 1e-12); len(errs) == 0 {
 		t.Error("infeasible point accepted")
@@ -325,9 +346,11 @@ func TestCertificateOnGonumOptimum(t *testing.T) {
 		corrupt := map[string]func(s *Solution){
 			"objective": func(s *Solution) { s.Objective += 1e-4 * (1 + s.Objective) },
 			"coef":      func(s *Solution) { s.Coef[0] += 1e-3 * (1 + math.Abs(s.Coef[0])) },
-			"dual":      func(s *Solution) { s.Dual[0] += 1e-3 },
-			"scaled":    func(s *Solution) { testScale(0.9, s.Dual) },
 			"basis":     func(s *Solution) { s.Basis = s.Basis[1:] },
+		}
+		if len(sol.ZeroDual) > 0 {
+			corrupt["dual"] = func(s *Solution) { s.ZeroDual[0] += 1e-3 }
+			corrupt["scaled"] = func(s *Solution) { testScale(0.9, s.ZeroDual) }
 		}
 		if len(sol.ConstraintDual) > 0 {
 			corrupt["mu"] = func(s *Solution) { s.ConstraintDual[0] -= 1 + s.ConstraintDual[0] }
@@ -354,7 +377,8 @@ func testScale(c float64, v []float64) {
 func cloneSolution(s *Solution) *Solution {
 	c := *s
 	c.Coef = append([]float64(nil), s.Coef...)
-	c.Dual = append([]float64(nil), s.Dual...)
+	c.Zero = append([]int(nil), s.Zero...)
+	c.ZeroDual = append([]float64(nil), s.ZeroDual...)
 	c.ConstraintDual = append([]float64(nil), s.ConstraintDual...)
 	c.Basis = append([]int(nil), s.Basis...)
 	return &c
@@ -372,7 +396,7 @@ func testRecoverDual(p *Problem, b []float64, obj float64) *Solution {
 	if p.Penalty != nil {
 		r = p.Penalty.Rows()
 	}
-	sol := &Solution{Coef: b, Objective: obj, Dual: make([]float64, n+r), ConstraintDual: make([]float64, len(p.G))}
+	sol := &Solution{Coef: b, Objective: obj, ConstraintDual: make([]float64, len(p.G))}
 	rhs := make([]float64, q)
 	type act struct {
 		k   int
@@ -392,7 +416,6 @@ func testRecoverDual(p *Problem, b []float64, obj float64) *Solution {
 		if res < 0 {
 			dk = -c
 		}
-		sol.Dual[k] = dk
 		for l, x := range v {
 			rhs[f+l] -= x * dk
 		}
@@ -431,7 +454,8 @@ func testRecoverDual(p *Problem, b []float64, obj float64) *Solution {
 	for l, a := range active {
 		v := z.AtVec(l)
 		if a.k < n+r {
-			sol.Dual[a.k] = v
+			sol.Zero = append(sol.Zero, a.k)
+			sol.ZeroDual = append(sol.ZeroDual, v)
 		} else {
 			if v < 0 {
 				return nil
@@ -465,11 +489,11 @@ func testUnique(p *Problem, sol *Solution) bool {
 				w = p.W[k]
 			}
 			a, c := p.Tau*w, (1-p.Tau)*w
-			if d := sol.Dual[k]; d >= a-margin*(a+c) || d <= -c+margin*(a+c) {
+			if d := testZeroDual(sol, k); math.IsNaN(d) || d >= a-margin*(a+c) || d <= -c+margin*(a+c) {
 				return false
 			}
 		case k < n+r:
-			if d := sol.Dual[k]; math.Abs(d) >= p.Lambda*(1-margin) {
+			if d := testZeroDual(sol, k); math.IsNaN(d) || math.Abs(d) >= p.Lambda*(1-margin) {
 				return false
 			}
 		default:
@@ -479,4 +503,15 @@ func testUnique(p *Problem, sol *Solution) bool {
 		}
 	}
 	return true
+}
+
+// testZeroDual returns the multiplier listed for soft row k, which must be
+// among sol.Zero (basis rows always are).
+func testZeroDual(sol *Solution, k int) float64 {
+	for j, i := range sol.Zero {
+		if i == k {
+			return sol.ZeroDual[j]
+		}
+	}
+	return math.NaN()
 }

@@ -13,8 +13,8 @@ const (
 	// by row: around the reduced answer when the first fit came from a
 	// subsample, else with the middle set doubled (Portnoy & Koenker 1997).
 	repairShare = 0.1
-	// rankSample: residual quantiles that place the thresholds are read off
-	// this many evenly spaced rows.
+	// rankSample: residual quantiles that place the thresholds, and the
+	// residual scales of the rows, are read off this many evenly spaced rows.
 	rankSample = 50000
 	// reduceSeed seeds the subsample of a cold start so answers repeat.
 	reduceSeed = 0x6772_6f77
@@ -26,6 +26,7 @@ const (
 type reduction struct {
 	full  *table
 	nData int
+	scale *rowScale
 	// sign per data row: +1 pooled above, -1 pooled below, 0 kept.
 	sign []int8
 	keep []int // kept data rows, ascending
@@ -33,57 +34,94 @@ type reduction struct {
 	// c_i (below).
 	up, down               []float64
 	upY, downY, upW, downW float64
+	// rows are pooled by their scaled residuals at guess: below klo, above
+	// khi.
+	guess    []float64
+	klo, khi float64
+	// costUp and costDown turn the table's costs into those of the tau
+	// the rows are classified for (1 unless prepared for the next tau).
+	costUp, costDown float64
+}
+
+// carry is what a reduced solve leaves for the next on the same table.
+type carry struct {
+	// guess holds coefficients near the answer (a neighbour's, perhaps
+	// moved along the trend of the grid); rows are classified by their
+	// residuals at it. nil means none: the first fit is a subsample's.
+	guess []float64
+	// ready, when not nil, is the classification at guess for this
+	// problem, made by the previous solve's verifying pass.
+	ready *reduction
+	// ahead, when not nil, is the next problem of a grid, for which the
+	// verifying pass classifies the rows at the same time.
+	ahead *ahead
+	// scale holds the residual scales of the rows, from the first fit.
+	scale *rowScale
+	// spare is a spent reduction whose buffers the next may reuse.
+	spare *reduction
+	// obj is the objective at the answer after a solve.
+	obj float64
+}
+
+// ahead describes the next problem of a grid: its tau and middle-set size,
+// and the solution before the current one (nil for none), from which the
+// trend of the coefficients in tau is extrapolated.
+type ahead struct {
+	tau       float64
+	m         int
+	before    []float64
+	tauBefore float64
 }
 
 // solveReduced solves the full table by Portnoy & Koenker's preprocessing.
-// cr.r holds the residuals of a preliminary fit on the full table (from a
-// neighbouring solution, whose basis is given), or is nil for a cold start
-// from a subsample; on return it holds the residuals of the answer and
-// cr.obj its objective.
+// cr.guess holds coefficients near the answer (from a neighbouring
+// solution, whose basis is given), or is nil for a cold start from a
+// subsample; on return cr holds the guess and classification for the next
+// problem and the objective of this one.
 //
-// Rows whose residuals at the guess lie outside the central band of ranks
-// [min(F0,tau) - m/2n, max(F0,tau) + m/2n] are pooled above or below, where
-// F0 is the share of rows below the guess; the reduced problem is solved
-// exactly; then every pooled row's sign is checked on the full data. Wrong
-// signs are repaired by moving those rows back and descending from the
+// Rows whose scaled residuals at the guess lie outside the central band of
+// ranks [min(F0,tau) - m/2n, max(F0,tau) + m/2n] are pooled above or below,
+// where F0 is the share of rows below the guess; the reduced problem is
+// solved exactly; then every pooled row's sign is checked on the full data.
+// Wrong signs are repaired by moving those rows back and descending from the
 // current vertex by the simplex method, until none remain. The answer is
 // then the exact optimum of the full problem: pooling rows replaces rho(r)
 // by the linear minorant a*r (or -c*r), which agrees with it at the answer.
+// On a grid of tau, the guess for the next tau is the answer moved along the
+// trend from its predecessor, and the pass that verifies one tau classifies
+// the rows for the next, so each tau costs one pass over the data.
 //
 // References:
 //   - Portnoy, S. & Koenker, R. (1997). The Gaussian hare and the Laplacian
 //     tortoise. Statistical Science 12, 279–300.
 //   - Chernozhukov, V., Fernández-Val, I. & Melly, B. (2022). Fast algorithms
 //     for the quantile regression process. Empirical Economics 62, 7–33.
-func solveReduced(full *table, nData int, tau float64, cr *carry, basis []int, m int, method Method, maxIter int) (*vertex, error) {
+func solveReduced(full *table, nData int, tau float64, cr *carry, basis []int, m int, method Method, maxIter int) (*answer, error) {
 	iters := 0
-	rough := cr.r == nil
+	guess := cr.guess
+	rough := guess == nil
 	if rough {
-		cr.alloc(full.rows())
 		sub := subsample(full, nData, m)
-		b, it, err := interior(sub, maxIter)
+		b, it, err := interior(sub, maxIter, guessGapTol)
 		if err != nil {
 			return nil, err
 		}
 		iters += it
-		full.residuals(cr.r, b)
-		basis = nil
+		guess, basis = b, nil
 	}
-	// guess holds the residuals that the rows are classified by; at holds
-	// those of the latest reduced answer.
-	cr.alloc(full.rows())
-	guess, at := cr.r, cr.spare
+	if cr.scale == nil {
+		cr.scale = newRowScale(full.x, full.y, nData, guess)
+	}
 	ys, _ := full.scales()
-	tol := zeroResidual * ys
-	red := &reduction{full: full, nData: nData, sign: make([]int8, nData)}
-	repairs, restart := 0, true
+	tol, tie := zeroResidual*ys, tieResidual*ys
+	red := cr.ready
+	cr.ready = nil
+	if red == nil || !slices.Equal(red.guess, guess) {
+		red = cr.reduction(full, nData)
+		red.classify(guess, tau, m)
+	}
+	repairs := 0
 	for {
-		if restart {
-			if cr.scale == nil {
-				cr.scale = rowScales(full.x, guess[:nData])
-			}
-			red.classify(guess[:nData], cr.scale, tau, m)
-		}
 		t := red.table()
 		start := red.mapBasis(basis, t)
 		use := method
@@ -103,174 +141,160 @@ func solveReduced(full *table, nData int, tau float64, cr *carry, basis []int, m
 		if slices.Contains(v.basis, -1) {
 			// A pooled row holds with equality: the band was far too narrow
 			// for the reduced problem to resemble the full one, so its
-			// vertex is no guide. Widen the band around the same fit.
+			// vertex is no guide. Widen the band around the same guess.
 			repairs++
-			m, restart, basis = min(2*m, nData), true, nil
+			m, basis = min(2*m, nData), nil
+			red.classify(guess, tau, m)
 			continue
 		}
-		dual := make([]float64, full.rows())
-		bad, obj := red.verify(at, dual, v.b, tol)
-		if len(bad) == 0 {
-			for k, i := range t.orig {
-				if i >= 0 {
-					dual[i] = v.dual[k]
-				}
-			}
-			v.dual = dual
-			v.iters, v.repairs = iters, repairs
-			cr.r, cr.spare, cr.obj = at, guess, obj
-			return v, nil
+		var next *reduction
+		if ah := cr.ahead; ah != nil {
+			next = cr.reduction(full, nData)
+			next.prepare(v.b, tau, ah)
 		}
+		bad, zero, obj := red.verify(v.b, tol, tie, next)
+		if len(bad) == 0 {
+			v.iters, v.repairs = iters, repairs
+			cr.obj, cr.guess, cr.ready = obj, v.b, next
+			if next != nil {
+				cr.guess = next.guess
+			}
+			a := &answer{v: v, obj: obj, zero: zero, dualAt: red.dualAt(v.dual), mu: v.dual[t.nSoft:]}
+			cr.spare = red
+			return a, nil
+		}
+		cr.spare = next
 		repairs++
 		basis = v.basis
-		restart = float64(len(bad)) > repairShare*float64(m)
-		if !restart {
+		if float64(len(bad)) <= repairShare*float64(m) {
 			red.unpool(bad)
 			continue
 		}
 		if rough {
 			// The classification came from a subsample's fit, rougher than
 			// the reduced optimum now at hand: classify again around it.
-			guess, at = at, guess
-			rough = false
-			continue
-		}
-		// Around a good fit the band was too narrow: widen it.
-		m, basis = min(2*m, nData), nil
-	}
-}
-
-// alloc makes sure both residual buffers hold n rows, keeping r.
-func (cr *carry) alloc(n int) {
-	if len(cr.r) == n && len(cr.spare) == n {
-		return
-	}
-	v := rowVectors(n, 2)
-	copy(v[0], cr.r)
-	cr.r, cr.spare = v[0], v[1]
-}
-
-// carry is what a reduced solve leaves for the next on the same table.
-type carry struct {
-	// r holds the residuals on the full table of the last answer (or of a
-	// neighbouring solution before the first); nil means none.
-	r []float64
-	// scale holds the rows' residual scales (see rowScales), computed once.
-	scale []float64
-	// obj is the objective at r after a solve.
-	obj float64
-	// spare is a second residual buffer, so that a failed reduction can
-	// fall back on the fit it started from.
-	spare []float64
-}
-
-// verify writes the full residuals at b into r and returns the pooled rows
-// whose residual has the wrong sign (beyond tol), and the objective at b.
-// It also writes the multipliers of the pooled rows, a_i or -c_i, into dual.
-func (red *reduction) verify(r, dual, b []float64, tol float64) (bad []int, obj float64) {
-	f := red.full
-	x := f.x
-	w := x.Width
-	n := len(red.sign)
-	first, y, a, c, rd, dd := x.First[:n], f.y[:n], f.a[:n], f.c[:n], r[:n], dual[:n]
-	for i, s := range red.sign {
-		fi := first[i]
-		xi := x.Val[i*w : i*w+w]
-		bb := b[fi : fi+w]
-		bb = bb[:len(xi)]
-		xb := 0.0
-		for k, v := range xi {
-			xb += v * bb[k]
-		}
-		ri := y[i] - xb
-		rd[i] = ri
-		switch s {
-		case 1:
-			dd[i] = a[i]
-		case -1:
-			dd[i] = -c[i]
-		}
-		if ri > 0 {
-			obj += a[i] * ri
-			if s < 0 && ri > tol {
-				bad = append(bad, i)
-			}
+			guess, rough = v.b, false
 		} else {
-			obj -= c[i] * ri
-			if s > 0 && ri < -tol {
-				bad = append(bad, i)
-			}
+			// Around a good guess the band was too narrow: widen it.
+			m, basis = min(2*m, nData), nil
 		}
+		red.classify(guess, tau, m)
 	}
-	// The remaining rows: penalty and hard rows.
-	for _, pt := range f.parts() {
-		w := pt.d.Width
-		for k := max(red.nData-pt.off, 0); k < len(pt.d.First); k++ {
-			i := pt.off + k
-			fi := pt.d.First[k]
-			r[i] = f.y[i] - dot(pt.d.Val[k*w:k*w+w], b[fi:fi+w])
-			if i < f.nSoft {
-				obj += rho(r[i], f.a[i], f.c[i])
-			}
-		}
-	}
-	return bad, obj
 }
 
-// rowScales returns, for each data row, the factor that turns its residual
-// into units of the local residual size over the local share of rows (both
-// projected through the design), so that a band of scaled residual ranks is
-// as wide, in units of the fit's own uncertainty, at every age: growth data
-// spread more with age.
-func rowScales(x *Design, r []float64) []float64 {
-	n, p, w := len(r), x.Cols, x.Width
+// reduction returns an empty reduction of full, reusing the spare one's
+// buffers (a spent reduction's pools are not read again).
+func (cr *carry) reduction(full *table, nData int) *reduction {
+	red := cr.spare
+	cr.spare = nil
+	if red == nil || red.full != full || len(red.sign) != nData {
+		red = &reduction{sign: make([]int8, nData)}
+	}
+	red.full, red.nData, red.scale = full, nData, cr.scale
+	red.costUp, red.costDown = 1, 1
+	return red
+}
+
+// dualAt returns the multiplier of a soft row of the full table given the
+// multipliers dual of the reduced table's rows: a pooled row's is fixed by
+// its sign, a kept row's is the reduced table's.
+func (red *reduction) dualAt(dual []float64) func(i int) float64 {
+	f := red.full
+	return func(i int) float64 {
+		if i >= red.nData {
+			// Penalty rows follow the kept data rows in the reduced table.
+			return dual[len(red.keep)+i-red.nData]
+		}
+		switch red.sign[i] {
+		case 1:
+			return f.a[i]
+		case -1:
+			return -f.c[i]
+		}
+		k, _ := slices.BinarySearch(red.keep, i)
+		return dual[k]
+	}
+}
+
+// rowScale turns a row's residual into units of the local residual size over
+// the local share of rows, so that a band of scaled residual ranks is as
+// wide, in units of the fit's own uncertainty, at every age: growth data
+// spread more with age. Each coefficient k gets the scale
+// 1/(size_k*sqrt(mean/mass_k)) from the mean absolute residual (size) and the
+// design mass of the rows it covers; a row's scale is the average of its
+// coefficients' scales weighted by |x_ik|, one short dot product per row.
+type rowScale struct {
+	per []float64 // per coefficient
+}
+
+// newRowScale estimates the residual scales from the residuals at b of
+// evenly spaced data rows.
+func newRowScale(x *Design, y []float64, n int, b []float64) *rowScale {
+	p, w := x.Cols, x.Width
 	size, mass := make([]float64, p), make([]float64, p)
-	for i, f := range x.First[:n] {
-		ar := math.Abs(r[i])
-		sz, ms := size[f:f+w], mass[f:f+w]
-		for k, v := range x.Val[i*w : i*w+w] {
+	step := max(n/rankSample, 1)
+	for i := 0; i < n; i += step {
+		f := x.First[i]
+		xi := x.Val[i*w : i*w+w]
+		ar := math.Abs(y[i] - dot(xi, b[f:f+w]))
+		for k, v := range xi {
 			v = math.Abs(v)
-			sz[k] += v * ar
-			ms[k] += v
+			size[f+k] += v * ar
+			mass[f+k] += v
 		}
 	}
 	total := 0.0
-	for k := range size {
-		if mass[k] > 0 {
-			size[k] /= mass[k]
-		}
-		total += mass[k]
+	for _, v := range mass {
+		total += v
 	}
 	mean := total / float64(p)
-	scale := make([]float64, n)
-	for i, f := range x.First[:n] {
-		sz, ms := size[f:f+w], mass[f:f+w]
-		s, q, wsum := 0.0, 0.0, 0.0
-		for k, v := range x.Val[i*w : i*w+w] {
-			v = math.Abs(v)
-			s += v * sz[k]
-			q += v * ms[k]
-			wsum += v
-		}
-		scale[i] = 1
-		if wsum > 0 && s > 0 && q > 0 {
-			scale[i] = wsum / (s * math.Sqrt(mean*wsum/q))
+	s := &rowScale{per: make([]float64, p)}
+	for k := range s.per {
+		s.per[k] = 0
+		if mass[k] > 0 && size[k] > 0 {
+			// size[k]/mass[k] is the mean |residual| near coefficient k.
+			s.per[k] = mass[k] / (size[k] * math.Sqrt(mean/mass[k]))
 		}
 	}
-	return scale
+	return s
 }
 
-// classify pools rows whose scaled residual ranks lie outside the band
-// around the shift from the guess's level to tau.
-func (red *reduction) classify(r, scale []float64, tau float64, m int) {
-	x := red.full.x // data rows are the first rows of the banded part
-	n, w := len(r), x.Width
+// of returns the scale of the row with entries xi from column f.
+func (s *rowScale) of(xi []float64, f int) float64 {
+	per := s.per[f : f+len(xi)]
+	num, den := 0.0, 0.0
+	for k, v := range xi {
+		v = math.Abs(v)
+		num += v * per[k]
+		den += v
+	}
+	if num > 0 {
+		return num / den
+	}
+	return 1
+}
+
+// band sets the thresholds at guess for tau and middle-set size m from the
+// scaled residuals of evenly spaced rows.
+func (red *reduction) band(guess []float64, tau float64, m int) {
+	f, n := red.full, red.nData
+	x, w := f.x, f.x.Width
+	red.guess = slices.Clone(guess)
+	red.klo, red.khi = math.Inf(-1), math.Inf(1)
+	if m >= n {
+		// The band is the whole data: keep every row, so that widening
+		// the band always ends.
+		return
+	}
 	step := max(n/rankSample, 1)
 	sample := make([]float64, 0, n/step+1)
 	below := 0
 	for i := 0; i < n; i += step {
-		sample = append(sample, r[i]*scale[i])
-		if r[i] < 0 {
+		fi := x.First[i]
+		xi := x.Val[i*w : i*w+w]
+		r := f.y[i] - dot(xi, guess[fi:fi+w])
+		sample = append(sample, r*red.scale.of(xi, fi))
+		if r < 0 {
 			below++
 		}
 	}
@@ -282,53 +306,151 @@ func (red *reduction) classify(r, scale []float64, tau float64, m int) {
 		k := int(q * float64(len(sample)-1))
 		return nth(sample, min(max(k, 0), len(sample)-1))
 	}
-	klo, khi := math.Inf(-1), math.Inf(1)
-	if m >= n {
-		// The band is the whole data: keep every row, so that widening
-		// the band always ends.
-		lo, hi = 0, 1
-	}
 	if lo > 0 {
-		klo = at(lo)
+		red.klo = at(lo)
 	}
 	if hi < 1 {
-		khi = at(hi)
-	}
-	red.resetPools()
-	f := red.full
-	up, down := red.up, red.down
-	r, scale = r[:n], scale[:n]
-	sign, y, ca, cc := red.sign[:n], f.y[:n], f.a[:n], f.c[:n]
-	for i, fi := range x.First[:n] {
-		s := r[i] * scale[i]
-		switch {
-		case s < klo:
-			sign[i] = -1
-			c := cc[i]
-			d := down[fi : fi+w]
-			for k, v := range x.Val[i*w : i*w+w] {
-				d[k] += c * v
-			}
-			red.downY += c * y[i]
-			red.downW += c
-		case s > khi:
-			sign[i] = 1
-			a := ca[i]
-			u := up[fi : fi+w]
-			for k, v := range x.Val[i*w : i*w+w] {
-				u[k] += a * v
-			}
-			red.upY += a * y[i]
-			red.upW += a
-		default:
-			sign[i] = 0
-			red.keep = append(red.keep, i)
-		}
+		red.khi = at(hi)
 	}
 }
 
-// nth returns the k-th smallest element of a, partly reordering a
-// (Hoare's selection, expected linear time).
+// classify pools the rows by their scaled residuals at guess, in a band of
+// middle-set size m around tau.
+func (red *reduction) classify(guess []float64, tau float64, m int) {
+	red.band(guess, tau, m)
+	red.resetPools()
+	red.pass(nil, 0, 0, red)
+}
+
+// prepare sets red up to be filled by the verifying pass of the answer b at
+// tau: the guess for the next tau is b moved along the trend from the
+// solution before (linear extrapolation in tau), and the thresholds are
+// placed at it. Regression quantiles are piecewise constant in tau but
+// follow a smooth curve on a fine grid, so the moved guess places the next
+// fit's residual ranks far better than b alone (Chernozhukov, Fernández-Val
+// & Melly 2022 predict the next solution so).
+func (red *reduction) prepare(b []float64, tau float64, ah *ahead) {
+	g := slices.Clone(b)
+	if ah.before != nil && ah.tauBefore != tau {
+		k := (ah.tau - tau) / (tau - ah.tauBefore)
+		for j := range g {
+			g[j] += k * (b[j] - ah.before[j])
+		}
+	}
+	red.band(g, ah.tau, ah.m)
+	red.resetPools()
+	// Data rows cost a_i = w_i*tau and c_i = w_i*(1-tau), so the next
+	// tau's costs are proportional to the table's.
+	red.costUp, red.costDown = ah.tau/tau, (1-ah.tau)/(1-tau)
+}
+
+// verify returns the pooled rows whose residual at b has the wrong sign
+// (beyond tol), the soft rows whose residual is within tie of zero, and the
+// objective at b. When next is not nil the same pass classifies the rows for
+// next (prepared for its tau; the costs are rescaled to it afterwards).
+func (red *reduction) verify(b []float64, tol, tie float64, next *reduction) (bad, zero []int, obj float64) {
+	bad, zero, obj = red.pass(b, tol, tie, next)
+	f := red.full
+	// The remaining rows: penalty and hard rows.
+	for _, pt := range f.parts() {
+		w := pt.d.Width
+		for k := max(red.nData-pt.off, 0); k < len(pt.d.First); k++ {
+			i := pt.off + k
+			if i >= f.nSoft {
+				break
+			}
+			fi := pt.d.First[k]
+			r := f.y[i] - dot(pt.d.Val[k*w:k*w+w], b[fi:fi+w])
+			obj += rho(r, f.a[i], f.c[i])
+			if math.Abs(r) <= tie {
+				zero = append(zero, i)
+			}
+		}
+	}
+	return bad, zero, obj
+}
+
+// pass sweeps the data rows once. With b, it returns the pooled rows of red
+// whose residual at b has the wrong sign (beyond tol), the rows whose
+// residual is within tie of zero and the data rows' objective at b. With
+// into, it pools into's rows by their scaled residuals at into.guess, with
+// costs times into.costUp and into.costDown. Both are done in one pass as the
+// sweep is bound by reading the rows from memory.
+func (red *reduction) pass(b []float64, tol, tie float64, into *reduction) (bad, zero []int, obj float64) {
+	f := red.full
+	x, n := f.x, red.nData
+	w := x.Width
+	first, y, ca, cc := x.First[:n], f.y[:n], f.a[:n], f.c[:n]
+	check := b != nil
+	var (
+		g, up, down            []float64
+		keep                   []int
+		isign                  []int8
+		sc                     *rowScale
+		klo, khi               float64
+		upY, downY, upW, downW float64
+	)
+	if into != nil {
+		g, up, down, keep, isign = into.guess, into.up, into.down, into.keep, into.sign[:n]
+		sc = into.scale
+		klo, khi = into.klo, into.khi
+	}
+	sign := red.sign[:n]
+	for i, fi := range first {
+		xi := x.Val[i*w : i*w+w]
+		if check {
+			ri := y[i] - rowDot(xi, b, fi)
+			// Branch-free in the sign of ri, which alternates at random.
+			obj += ca[i]*max(ri, 0) - cc[i]*min(ri, 0)
+			if float64(sign[i])*ri < -tol {
+				bad = append(bad, i)
+			}
+			if math.Abs(ri) <= tie {
+				zero = append(zero, i)
+			}
+		}
+		if into == nil {
+			continue
+		}
+		s := (y[i] - rowDot(xi, g, fi)) * sc.of(xi, fi)
+		switch {
+		case s < klo:
+			isign[i] = -1
+			c := cc[i]
+			d := down[fi : fi+w]
+			d = d[:len(xi)]
+			for k, v := range xi {
+				d[k] += c * v
+			}
+			downY += c * y[i]
+			downW += c
+		case s > khi:
+			isign[i] = 1
+			a := ca[i]
+			u := up[fi : fi+w]
+			u = u[:len(xi)]
+			for k, v := range xi {
+				u[k] += a * v
+			}
+			upY += a * y[i]
+			upW += a
+		default:
+			isign[i] = 0
+			keep = append(keep, i)
+		}
+	}
+	if into != nil {
+		for k := range up {
+			up[k] *= into.costUp
+			down[k] *= into.costDown
+		}
+		into.keep = keep
+		into.upY, into.upW = upY*into.costUp, upW*into.costUp
+		into.downY, into.downW = downY*into.costDown, downW*into.costDown
+	}
+	return bad, zero, obj
+}
+
 func nth(a []float64, k int) float64 {
 	lo, hi := 0, len(a)-1
 	for lo < hi {
@@ -483,26 +605,19 @@ func (red *reduction) mapBasis(basis []int, t *table) []int {
 	return out
 }
 
-// subsample returns m data rows drawn without replacement (fixed seed),
+// subsample returns m distinct data rows drawn at random (fixed seed),
 // the penalty and hard rows, with data costs scaled by n/m so that the
 // penalty keeps its weight relative to the data.
 func subsample(f *table, nData, m int) *table {
 	rng := rand.New(rand.NewPCG(reduceSeed, uint64(nData)))
 	m = min(m, nData)
-	// Floyd's algorithm draws m distinct rows in O(m) draws.
-	chosen := make([]bool, nData)
-	for j := nData - m; j < nData; j++ {
-		k := rng.IntN(j + 1)
-		if chosen[k] {
-			k = j
-		}
-		chosen[k] = true
-	}
+	// One row drawn from each of m equal blocks: every row has the same
+	// chance, the draw costs O(m), and rows sorted by age are sampled
+	// evenly over the ages (stratified sampling).
 	keep := make([]int, 0, m+len(f.x.First)-nData)
-	for i, c := range chosen {
-		if c {
-			keep = append(keep, i)
-		}
+	for k := range m {
+		lo, hi := k*nData/m, (k+1)*nData/m
+		keep = append(keep, lo+rng.IntN(hi-lo))
 	}
 	for i := nData; i < len(f.x.First); i++ {
 		keep = append(keep, i)

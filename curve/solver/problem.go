@@ -2,7 +2,6 @@ package solver
 
 import (
 	"fmt"
-	"math"
 )
 
 // Design is a sparse matrix whose row i holds Width consecutive entries
@@ -129,9 +128,15 @@ type Solution struct {
 	// Basis lists the p conditions that define the vertex: a value k < n is
 	// data row k, n <= k < n+r is penalty row k-n, and n+r+j is constraint j.
 	Basis []int
-	// Dual holds, per data row then per penalty row, the multiplier d_i in
-	// [-c_i, a_i] with X'd + D'd_pen + G'mu = 0 (the optimality certificate).
-	Dual []float64
+	// Zero lists, in increasing order, the soft rows (data rows k < n, then
+	// penalty rows n+j) whose residual is zero at the vertex, the basis rows
+	// among them, and ZeroDual their multipliers d_k in [-c_k, a_k]. Every
+	// other soft row's multiplier is fixed by the sign of its residual (a_k
+	// if positive, -c_k if negative), so the optimality certificate
+	// X'd + D'd_pen + G'mu = 0 costs memory for these rows only; Duals
+	// expands it to every row.
+	Zero     []int
+	ZeroDual []float64
 	// ConstraintDual holds mu_j >= 0 for each constraint.
 	ConstraintDual []float64
 	// Reductions counts how many times the preprocessing had to repair a
@@ -216,7 +221,9 @@ func (p *Problem) validate() error {
 	return nil
 }
 
-func finite(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }
+// finite reports whether x is neither NaN nor infinite: x - x is 0 for
+// finite x and NaN otherwise (IEEE 754), one subtraction per value.
+func finite(x float64) bool { return x-x == 0 }
 
 // resize returns s with length n, reusing its storage when it is large enough.
 func resize(s []float64, n int) []float64 {
@@ -237,4 +244,27 @@ func Solve(p *Problem, s *Settings) (*Solution, error) {
 // the solution at the nearest tau already solved. p.Tau is ignored.
 func SolveGrid(p *Problem, taus []float64, s *Settings) ([]*Solution, error) {
 	return solveGrid(p, taus, s)
+}
+
+// Duals returns the multiplier of every soft row of p (data rows, then
+// penalty rows) at the solution: ZeroDual for the rows listed in Zero, and
+// for the others a_i or -c_i by the sign of the residual at Coef. p must be
+// the problem s solves; Duals takes O(n) time and memory.
+func (s *Solution) Duals(p *Problem) []float64 {
+	t := newTable(p)
+	r := make([]float64, t.rows())
+	t.residuals(r, s.Coef)
+	d := r[:t.nSoft]
+	for i, ri := range d {
+		switch {
+		case ri > 0:
+			d[i] = t.a[i]
+		case ri < 0:
+			d[i] = -t.c[i]
+		}
+	}
+	for k, i := range s.Zero {
+		d[i] = s.ZeroDual[k]
+	}
+	return d
 }

@@ -10,10 +10,30 @@ import (
 type vertex struct {
 	b       []float64
 	basis   []int
-	dual    []float64
+	dual    []float64 // per row of the table solved
 	iters   int
 	repairs int
 	method  Method
+}
+
+// tieResidual: soft rows whose residual at the answer is within
+// tieResidual*max|y| of zero are listed in Solution.Zero with their
+// multiplier. It is ten times zeroResidual, so every row the simplex method
+// counts as zero is listed and every row left out has a residual whose sign
+// no rounding of its recomputation can flip.
+const tieResidual = 10 * zeroResidual
+
+// answer is what a solve on the full table found: the vertex in full-table
+// rows, the residuals r at it, and the multiplier of any soft row.
+type answer struct {
+	v      *vertex
+	r      []float64
+	obj    float64
+	dualAt func(i int) float64
+	mu     []float64 // constraint multipliers
+	// zero lists soft rows with |r| <= tieResidual*max|y|, ascending, when
+	// r is nil.
+	zero []int
 }
 
 // solveTable finds the optimal vertex of t by the simplex method (from
@@ -31,7 +51,7 @@ func solveTable(t *table, basis []int, method Method, maxIter int) (*vertex, err
 		// An interior point that fails (it diverges on infeasible
 		// constraints) leaves the simplex method to start cold and decide.
 		basis = nil
-		if b, it, err := interior(t, maxIter); err == nil && allFinite(b) {
+		if b, it, err := interior(t, maxIter, gapTol); err == nil && allFinite(b) {
 			iters = it
 			basis, _ = crossover(t, b)
 		}
@@ -85,20 +105,19 @@ func solveOn(t *table, pr *Problem, s *Settings, start *Solution, cr *carry) (*S
 	if method != Simplex && !s.NoPreprocess && n > PreprocessRows {
 		m := coldMiddle(n, t.p())
 		if basis == nil {
-			cr.r = nil
+			cr.guess, cr.ready = nil, nil
 		} else {
 			m = warmMiddle(n, t.p())
-			if cr.r == nil {
-				cr.alloc(t.rows())
-				t.residuals(cr.r, start.Coef)
+			if cr.guess == nil {
+				cr.guess = start.Coef
 			}
 		}
-		v, err = solveReduced(t, n, pr.Tau, cr, basis, m, method, s.MaxIter)
+		a, err := solveReduced(t, n, pr.Tau, cr, basis, m, method, s.MaxIter)
 		if err != nil {
 			return nil, err
 		}
-		v.method = Interior
-		return solution(t, v, cr.obj), nil
+		a.v.method = Interior
+		return solution(t, a), nil
 	}
 	if method == Interior {
 		basis = nil
@@ -106,9 +125,10 @@ func solveOn(t *table, pr *Problem, s *Settings, start *Solution, cr *carry) (*S
 	if v, err = solveTable(t, basis, method, s.MaxIter); err != nil {
 		return nil, err
 	}
-	cr.r = resize(cr.r, t.rows())
-	t.residuals(cr.r, v.b)
-	return solution(t, v, t.objective(cr.r)), nil
+	r := make([]float64, t.rows())
+	t.residuals(r, v.b)
+	return solution(t, &answer{v: v, r: r, obj: t.objective(r),
+		dualAt: func(i int) float64 { return v.dual[i] }, mu: v.dual[t.nSoft:]}), nil
 }
 
 // coldMiddle is the number of rows kept by the reduction of n data rows
@@ -129,20 +149,46 @@ func warmMiddle(n, p int) int {
 	return max(int(math.Ceil(warmMiddleScale*math.Sqrt(float64(p)*float64(n)))), 4*p)
 }
 
-// solution assembles the answer on the caller's numbering from the vertex
-// and the objective at it.
-func solution(t *table, v *vertex, obj float64) *Solution {
-	ns := t.nSoft
+// solution assembles the answer on the caller's numbering: the vertex, its
+// objective and the multipliers of the rows with zero residual.
+func solution(t *table, a *answer) *Solution {
+	v := a.v
+	zero := a.zero
+	if a.r != nil {
+		ys, _ := t.scales()
+		zero = zeroRows(a.r[:t.nSoft], tieResidual*ys, nil)
+	}
+	// Basis rows have zero residual; list them even if rounding says not.
+	for _, i := range v.basis {
+		if k, found := slices.BinarySearch(zero, i); !found && i < t.nSoft {
+			zero = slices.Insert(zero, k, i)
+		}
+	}
+	zd := make([]float64, len(zero))
+	for k, i := range zero {
+		zd[k] = a.dualAt(i)
+	}
 	return &Solution{
 		Coef:           slices.Clone(v.b),
-		Objective:      obj,
+		Objective:      a.obj,
 		Iterations:     v.iters,
 		Method:         v.method,
 		Basis:          slices.Clone(v.basis),
-		Dual:           v.dual[:ns:ns],
-		ConstraintDual: slices.Clone(v.dual[ns:]),
+		Zero:           zero,
+		ZeroDual:       zd,
+		ConstraintDual: slices.Clone(a.mu),
 		Reductions:     v.repairs,
 	}
+}
+
+// zeroRows appends to dst the rows i with |r_i| <= tol, in order.
+func zeroRows(r []float64, tol float64, dst []int) []int {
+	for i, ri := range r {
+		if math.Abs(ri) <= tol {
+			dst = append(dst, i)
+		}
+	}
+	return dst
 }
 
 func solveGrid(pr *Problem, taus []float64, s *Settings) ([]*Solution, error) {
@@ -195,19 +241,33 @@ func solveGrid(pr *Problem, taus []float64, s *Settings) ([]*Solution, error) {
 		t.setTau(&q)
 		return solveOn(t, &q, s, from, cr)
 	}
-	cr := &carry{}
+	// Each solve also classifies the rows for the next tau (cr.ahead).
+	n, p := pr.X.Rows(), t.p()
+	aheadOf := func(k, dir int, before []float64) *ahead {
+		if k+dir < 0 || k+dir >= len(order) {
+			return nil
+		}
+		ah := &ahead{tau: taus[order[k+dir]], m: warmMiddle(n, p), before: before}
+		if before != nil {
+			ah.tauBefore = taus[order[k-dir]]
+		}
+		return ah
+	}
+	cr := &carry{ahead: aheadOf(mid, 1, nil)}
 	first, err := one(mid, s.Start, cr)
 	if err != nil {
 		return nil, err
 	}
 	out[order[mid]] = first
-	r0 := slices.Clone(cr.r)
 	for _, dir := range []int{1, -1} {
 		prev := first
 		if dir < 0 {
-			copy(cr.r, r0)
+			// Back at the median: the rows were classified for the other
+			// side.
+			cr.guess, cr.ready = first.Coef, nil
 		}
 		for k := mid + dir; k >= 0 && k < len(order); k += dir {
+			cr.ahead = aheadOf(k, dir, prev.Coef)
 			sol, err := one(k, prev, cr)
 			if err != nil {
 				return nil, err

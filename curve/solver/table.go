@@ -143,13 +143,7 @@ func (t *table) residuals(r, b []float64) {
 		rp, yp := r[pt.off:][:nr], t.y[pt.off:][:nr]
 		for i, f := range pt.d.First {
 			xi := pt.d.Val[i*w : i*w+w]
-			bb := b[f : f+w]
-			bb = bb[:len(xi)]
-			s := 0.0
-			for k, x := range xi {
-				s += x * bb[k]
-			}
-			rp[i] = yp[i] - s
+			rp[i] = yp[i] - rowDot(xi, b, f)
 		}
 	}
 }
@@ -181,13 +175,22 @@ func (t *table) scales() (ys, cs float64) {
 	defer func() { t.ys, t.cs = ys, cs }()
 	ys = 1
 	nx := len(t.x.First)
-	for i, y := range t.y {
-		if i < nx || i >= t.nSoft {
-			ys = max(ys, math.Abs(y))
+	// Plain comparisons: the rows hold no NaN (validated), and they run
+	// faster than the built-in max, which orders NaN and signed zeros.
+	for _, y := range t.y[:nx] {
+		if a := math.Abs(y); a > ys {
+			ys = a
 		}
 	}
-	for i := 0; i < nx; i++ {
-		cs = max(cs, t.a[i]+t.c[i])
+	for _, y := range t.y[t.nSoft:] {
+		if a := math.Abs(y); a > ys {
+			ys = a
+		}
+	}
+	for i, a := range t.a[:nx] {
+		if s := a + t.c[i]; s > cs {
+			cs = s
+		}
 	}
 	if cs == 0 {
 		cs = 1
@@ -207,4 +210,16 @@ func (t *table) addRow(dst []float64, i int, a float64) {
 func (t *table) dense(dst []float64, i int) {
 	clear(dst)
 	t.addRow(dst, i, 1)
+}
+
+// rowDot returns x'b[f:f+len(x)], a stored row times the coefficients it
+// covers. It is small enough to be inlined into the hot loops, and slicing b
+// to x's length lets the compiler drop the bounds checks.
+func rowDot(x, b []float64, f int) float64 {
+	bb := b[f : f+len(x)]
+	s := 0.0
+	for k, v := range x {
+		s += v * bb[k]
+	}
+	return s
 }
