@@ -172,7 +172,7 @@ func benchRun(b *testing.B, n int, solve func(p *Problem) error) {
 		iters++
 	}
 	b.ReportMetric(float64(solveTime)/float64(lsqTime), "x-lsq")
-	b.ReportMetric(float64(lsqTime.Milliseconds())/float64(iters), "lsq-ms")
+	b.ReportMetric(float64(lsqTime)/1e6/float64(iters), "lsq-ms")
 	b.ReportMetric(float64(allocated)/float64(iters*n), "B/row")
 }
 

@@ -484,13 +484,15 @@ func dirHard(sl, id, dd, ts float64) float64 {
 	return (ts-sl*dd)*id - sl
 }
 
-// limit returns the largest a' <= a with x + a'dx >= 0 (x >= 0), dividing
-// only when the limit shrinks.
-func limit(a, x, dx float64) float64 {
-	if dx < 0 && x < -a*dx {
-		return -x / dx
+// shrink returns max(k, -dx*ix), the inverse of the largest step a <= 1/k
+// with x + a*dx >= 0, given ix = 1/x for x > 0. Steps are kept as inverses
+// so that no row tests the sign of dx, which is as likely either way and so
+// defeats branch prediction; the comparison is rarely true.
+func shrink(k, dx, ix float64) float64 {
+	if v := -dx * ix; v > k {
+		return v
 	}
-	return a
+	return k
 }
 
 // sweep computes the direction of every row from db (dd_i = om_i (q_i -
@@ -509,7 +511,7 @@ func (s *ipm) sweep(predictor bool) (ap, ad, aff float64) {
 	ra, rc, izu, izv := s.ra[:n], s.rc[:n], s.izu[:n], s.izv[:n]
 	om, q, pu, pv, dd := s.om[:n], s.q[:n], s.pu[:n], s.pv[:n], s.dd[:n]
 	db := s.db
-	ap, ad = 1, 1
+	kp, kd := 1.0, 1.0     // inverses of the steps
 	var s1, s2, s3 float64 // sums of dx*z, x*dz, dx*dz
 	for _, pt := range s.t.parts() {
 		w := pt.d.Width
@@ -535,8 +537,8 @@ func (s *ipm) sweep(predictor bool) (ap, ad, aff float64) {
 				}
 				ui, vi, zui, zvi := u[i], v[i], zu[i], zv[i]
 				du, dv, dzu, dzv := dirFree(ui, vi, ra[i], rc[i], izu[i], izv[i], ddi, tu, tv)
-				ap = limit(limit(ap, ui, du), vi, dv)
-				ad = limit(limit(ad, zui, dzu), zvi, dzv)
+				kp = shrink(shrink(kp, du, 1/ui), dv, 1/vi)
+				kd = shrink(shrink(kd, dzu, izu[i]), dzv, izv[i])
 				if predictor {
 					s1 += du*zui + dv*zvi
 					s2 += ui*dzu + vi*dzv
@@ -550,8 +552,8 @@ func (s *ipm) sweep(predictor bool) (ap, ad, aff float64) {
 					ts = tg - pu[i]
 				}
 				ds := dirHard(u[i], izu[i], ddi, ts)
-				ap = limit(ap, u[i], ds)
-				ad = limit(ad, d[i], ddi)
+				kp = shrink(kp, ds, 1/u[i])
+				kd = shrink(kd, ddi, izu[i])
 				if predictor {
 					s1 += ds * d[i]
 					s2 += u[i] * ddi
@@ -561,6 +563,7 @@ func (s *ipm) sweep(predictor bool) (ap, ad, aff float64) {
 			}
 		}
 	}
+	ap, ad = 1/kp, 1/kd
 	aff = s.comp + ap*s1 + ad*s2 + ap*ad*s3
 	return ap, ad, aff
 }

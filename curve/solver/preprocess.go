@@ -225,6 +225,10 @@ func (red *reduction) dualAt(dual []float64) func(i int) float64 {
 // coefficients' scales weighted by |x_ik|, one short dot product per row.
 type rowScale struct {
 	per []float64 // per coefficient
+	// row holds each data row's scale once filled (by the first pass that
+	// classifies rows), so later passes of a grid read it.
+	row    []float64
+	filled bool
 }
 
 // newRowScale estimates the residual scales from the residuals at b of
@@ -248,7 +252,7 @@ func newRowScale(x *Design, y []float64, n int, b []float64) *rowScale {
 		total += v
 	}
 	mean := total / float64(p)
-	s := &rowScale{per: make([]float64, p)}
+	s := &rowScale{per: make([]float64, p), row: make([]float64, n)}
 	for k := range s.per {
 		s.per[k] = 0
 		if mass[k] > 0 && size[k] > 0 {
@@ -386,13 +390,14 @@ func (red *reduction) pass(b []float64, tol, tie float64, into *reduction) (bad,
 		g, up, down            []float64
 		keep                   []int
 		isign                  []int8
-		sc                     *rowScale
+		scale                  []float64
+		fill                   bool
 		klo, khi               float64
 		upY, downY, upW, downW float64
 	)
 	if into != nil {
 		g, up, down, keep, isign = into.guess, into.up, into.down, into.keep, into.sign[:n]
-		sc = into.scale
+		scale, fill = into.scale.row[:n], !into.scale.filled
 		klo, khi = into.klo, into.khi
 	}
 	sign := red.sign[:n]
@@ -412,34 +417,42 @@ func (red *reduction) pass(b []float64, tol, tie float64, into *reduction) (bad,
 		if into == nil {
 			continue
 		}
-		s := (y[i] - rowDot(xi, g, fi)) * sc.of(xi, fi)
-		switch {
-		case s < klo:
-			isign[i] = -1
-			c := cc[i]
-			d := down[fi : fi+w]
-			d = d[:len(xi)]
-			for k, v := range xi {
-				d[k] += c * v
-			}
-			downY += c * y[i]
-			downW += c
-		case s > khi:
-			isign[i] = 1
-			a := ca[i]
-			u := up[fi : fi+w]
-			u = u[:len(xi)]
-			for k, v := range xi {
-				u[k] += a * v
-			}
-			upY += a * y[i]
-			upW += a
-		default:
-			isign[i] = 0
-			keep = append(keep, i)
+		// The row is pooled below when its scaled residual r*num/den is
+		// below klo, above when above khi. Which it is alternates at random
+		// along the rows, so the choice is made without branching (the
+		// compiler emits conditional moves) and both pools are summed,
+		// one of them with weight zero.
+		if fill {
+			scale[i] = into.scale.of(xi, fi)
 		}
+		rs := (y[i] - rowDot(xi, g, fi)) * scale[i]
+		ku, kd := 0, 0
+		if rs > khi {
+			ku = 1
+		}
+		if rs < klo {
+			kd = 1
+		}
+		isign[i] = int8(ku - kd)
+		if ku == kd {
+			keep = append(keep, i)
+			continue
+		}
+		gu, gd := float64(ku)*ca[i], float64(kd)*cc[i]
+		u, d := up[fi:fi+w], down[fi:fi+w]
+		u, d = u[:len(xi)], d[:len(xi)]
+		for k, v := range xi {
+			u[k] += gu * v
+			d[k] += gd * v
+		}
+		yi := y[i]
+		upY += gu * yi
+		upW += gu
+		downY += gd * yi
+		downW += gd
 	}
 	if into != nil {
+		into.scale.filled = true
 		for k := range up {
 			up[k] *= into.costUp
 			down[k] *= into.costDown
