@@ -53,8 +53,9 @@ const (
 // subject to X'd + G'mu = 0, -c <= d <= a, mu >= 0. Every Newton step
 // eliminates all but the p coefficient directions, leaving the normal
 // equations (X'Θ X + G'Σ G) Δb = rhs. Rows are banded, so the matrix is
-// accumulated in O(n·w²) for rows of w stored entries and factored by a
-// p-by-p Cholesky decomposition. The predictor and the corrector share Θ, so
+// accumulated in O(n·w²) for rows of w stored entries and has bandwidth
+// w-1 (constraints of one coefficient each keep it so), and it is factored
+// by a band Cholesky decomposition in O(p·w²) (band.go). The predictor and the corrector share Θ, so
 // each iteration accumulates and factors the matrix once; the work per
 // iteration is five passes over the rows (taking the last step and the
 // residuals, the normal equations, the predictor, the corrector's
@@ -131,7 +132,7 @@ type ipm struct {
 	pu, pv, dd       []float64
 	b, db, rb, rhs   []float64
 	m                *mat.SymDense
-	chol             mat.Cholesky
+	chol             bandCholesky
 	comp, target     float64
 	first            bool
 }
@@ -340,8 +341,8 @@ func (s *ipm) accumulate4(d *Design) {
 	flush()
 }
 
-// factor factors the normal matrix, shifting its diagonal when it is not
-// numerically positive definite.
+// factor factors the normal matrix by a band Cholesky decomposition,
+// shifting its diagonal when it is not numerically positive definite.
 func (s *ipm) factor() error {
 	p := s.p
 	raw := s.m.RawSymmetric()
@@ -353,7 +354,7 @@ func (s *ipm) factor() error {
 		return fmt.Errorf("%w: interior point diverged", ErrNoConverge)
 	}
 	shift := 0.0
-	for try := 0; !s.chol.Factorize(s.m); try++ {
+	for try := 0; !s.chol.factor(raw.Data, p, raw.Stride); try++ {
 		if try == ridgeTries {
 			return fmt.Errorf("%w: normal equations are singular", ErrRankDeficient)
 		}
@@ -367,16 +368,14 @@ func (s *ipm) factor() error {
 }
 
 // solve sets db to the solution of the factored normal equations with
-// right-hand side rhs - rb.
+// right-hand side rhs - rb. Late iterations are ill-conditioned by design
+// (Θ spreads over many orders of magnitude); the crossover does not need
+// an accurate step.
 func (s *ipm) solve() {
 	for k := range s.rhs {
 		s.rhs[k] -= s.rb[k]
 	}
-	out := mat.NewVecDense(s.p, s.db)
-	// Late iterations are ill-conditioned by design (Θ spreads over many
-	// orders of magnitude); gonum's condition warning is expected then, and
-	// the crossover does not need an accurate step.
-	_ = s.chol.SolveVecTo(out, mat.NewVecDense(s.p, s.rhs))
+	s.chol.solve(s.db, s.rhs)
 }
 
 // state takes the previous iteration's step (lengths ap, ad along the
