@@ -153,19 +153,32 @@ func decodeItem(raw []byte, prefix string) (*measurement, error) {
 
 // decodeScoreBody reads a score request: one object, or an array of them.
 func decodeScoreBody(body io.Reader) (items []*measurement, list bool, err error) {
-	dec := json.NewDecoder(body)
-	var raw json.RawMessage
-	if err := dec.Decode(&raw); err != nil {
-		return nil, false, decodeError(err, "")
-	}
-	if _, err := dec.Token(); err != io.EOF {
+	raw, err := io.ReadAll(body)
+	if err != nil {
 		var mb *http.MaxBytesError
 		if errors.As(err, &mb) {
 			return nil, false, err
 		}
+		return nil, false, fieldErr(bodyField, "reading the body: %v", err)
+	}
+	// The common request, one well-formed object, is decoded once; anything
+	// else takes the slower path that names what is wrong.
+	if t := bytes.TrimSpace(raw); len(t) > 0 && t[0] == '{' && json.Valid(t) {
+		m, err := decodeItem(t, "")
+		if err != nil {
+			return nil, false, err
+		}
+		return []*measurement{m}, false, nil
+	}
+	dec := json.NewDecoder(bytes.NewReader(raw))
+	var value json.RawMessage
+	if err := dec.Decode(&value); err != nil {
+		return nil, false, decodeError(err, "")
+	}
+	if _, err := dec.Token(); err != io.EOF {
 		return nil, false, fieldErr(bodyField, "data after the JSON value")
 	}
-	trimmed := bytes.TrimSpace(raw)
+	trimmed := bytes.TrimSpace(value)
 	switch {
 	case len(trimmed) > 0 && trimmed[0] == '{':
 		m, err := decodeItem(trimmed, "")
