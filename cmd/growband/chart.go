@@ -11,6 +11,7 @@ import (
 
 	"growband/curve"
 	"growband/internal/intake"
+	"growband/internal/scorefile"
 	"growband/render"
 )
 
@@ -102,7 +103,7 @@ func readPoints(r *curve.Reference, st *curve.Stratum, path string, cols *column
 	// selects the rows of it.
 	c := *cols
 	c.stratumName = st.Name
-	spec, err := c.spec("chart", r, fs)
+	spec, err := c.spec("chart", r)
 	if err != nil {
 		return nil, nil, err
 	}
@@ -130,7 +131,7 @@ func readPoints(r *curve.Reference, st *curve.Stratum, path string, cols *column
 	outside := 0
 	for _, row := range t.Rows {
 		switch {
-		case spec.Stratum != "" && row.Stratum != st.Name:
+		case c.stratum != "" && row.Stratum != st.Name:
 		case row.Age < st.AgeMin || row.Age > st.AgeMax:
 			outside++
 		default:
@@ -176,7 +177,7 @@ func readPoints(r *curve.Reference, st *curve.Stratum, path string, cols *column
 				err = curve.ErrDegenerate
 			}
 			if err != nil {
-				prog.printf("child %s, age %s: no z-score (%s)", ch.Label, ageText(ch.Ages[j]), scoreReason(r, err))
+				prog.printf("child %s, age %s: no z-score (%s)", ch.Label, ageText(ch.Ages[j]), scorefile.Reason(r, err))
 				ch.Z = nil
 				break
 			}

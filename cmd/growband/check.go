@@ -66,12 +66,15 @@ func runCheck(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	spec, err := cols.spec("check", ref, fs)
+	spec, err := cols.spec("check", ref)
 	if err != nil {
 		return err
 	}
 	t, err := intake.ReadFile(*in, spec)
 	if err != nil {
+		return err
+	}
+	if err := cols.needStratum(ref, t); err != nil {
 		return err
 	}
 	prog := progress{w: stderr}

@@ -12,6 +12,7 @@ import (
 
 	"growband/curve"
 	"growband/internal/intake"
+	"growband/internal/scorefile"
 )
 
 // tableRows is about how many ages a default table or chart grid has: one a
@@ -216,26 +217,6 @@ func num(x float64) string {
 // ageText formats an age.
 func ageText(x float64) string { return strconv.FormatFloat(tidy(x), 'g', -1, 64) }
 
-// zText formats a z-score to three decimals.
-func zText(z float64) string {
-	if math.IsNaN(z) {
-		return ""
-	}
-	return strconv.FormatFloat(z, 'f', 3, 64)
-}
-
-// centileText formats a centile in percent to two decimals, with more
-// digits in the far tails where two decimals would read 0.00 or 100.00.
-func centileText(c float64) string {
-	switch {
-	case math.IsNaN(c):
-		return ""
-	case c < 0.01 || c > 99.99:
-		return strconv.FormatFloat(c, 'g', 6, 64)
-	}
-	return strconv.FormatFloat(c, 'f', 2, 64)
-}
-
 // fileStem turns a stratum name into a safe file name part: lower case
 // letters, digits and '-'; "all" for the unnamed stratum.
 func fileStem(name string) string {
@@ -280,11 +261,11 @@ type columnFlags struct {
 }
 
 func (c *columnFlags) register(fs *flag.FlagSet, withSubject bool) {
-	fs.StringVar(&c.age, "age-column", "age", "column holding the age, in the reference's age unit")
-	fs.StringVar(&c.birth, "birth-column", "", "column holding the date of birth (with --visit-column, instead of --age-column)")
-	fs.StringVar(&c.visit, "visit-column", "", "column holding the date of measurement (with --birth-column)")
-	fs.StringVar(&c.value, "value-column", "", "column holding the measurement (default: the reference's measure name)")
-	fs.StringVar(&c.stratum, "stratum-column", "", `column holding the stratum (default: "stratum" when the reference has several strata)`)
+	fs.StringVar(&c.age, "age-column", "", `column holding the age, in the reference's age unit (default: a column named "age")`)
+	fs.StringVar(&c.birth, "birth-column", "", `column holding the date of birth, with --visit-column, instead of the age (default when there is no age column: one named "birth", "birth_date", "date_of_birth" or "dob")`)
+	fs.StringVar(&c.visit, "visit-column", "", `column holding the date of measurement, with --birth-column (default: one named "measured", "visit", "visit_date" or "date_measured")`)
+	fs.StringVar(&c.value, "value-column", "", `column holding the measurement (default: a column named after the reference's measure, or "value")`)
+	fs.StringVar(&c.stratum, "stratum-column", "", `column holding the stratum (default: a column named "stratum", "sex" or "group")`)
 	fs.StringVar(&c.unit, "unit", "", "unit of the values in the file, converted to the reference's unit (default: the reference's unit)")
 	fs.StringVar(&c.dateFormat, "date-format", intake.DefaultDateFormat, "layout of the date columns, e.g. YYYY-MM-DD, DD/MM/YYYY, MM/DD/YYYY, DD.MM.YYYY or YYYYMMDD")
 	fs.StringVar(&c.codes, "stratum-codes", "", `map stratum codes to the reference's names, e.g. "F=female,M=male,1=male,2=female"`)
@@ -294,44 +275,26 @@ func (c *columnFlags) register(fs *flag.FlagSet, withSubject bool) {
 }
 
 // spec turns the flags into a reading spec for a file to be scored against
-// r: every row is kept, limits are the reference's business.
-func (c *columnFlags) spec(cmd string, r *curve.Reference, fs *flag.FlagSet) (*intake.Spec, error) {
-	set := given(fs)
-	s := &intake.Spec{
-		Value:          c.value,
-		Subject:        c.subject,
-		AgeUnit:        r.AgeUnit,
-		Unit:           r.Unit,
-		InputUnit:      c.unit,
-		DateFormat:     c.dateFormat,
-		KeepDuplicates: true,
-	}
-	if s.Value == "" {
-		s.Value = r.Measure
-		if s.Value == "" {
-			return nil, usagef(cmd, "%s: the reference names no measure: give --value-column", cmd)
-		}
+// r: the rules of scorefile.Spec (columns found by their usual names, every
+// row kept; limits are the reference's business), with the columns, unit,
+// date layout and codes the flags name.
+func (c *columnFlags) spec(cmd string, r *curve.Reference) (*intake.Spec, error) {
+	s := scorefile.Spec(r)
+	s.Value, s.Subject, s.Stratum, s.DateFormat = c.value, c.subject, c.stratum, c.dateFormat
+	if c.unit != "" {
+		s.InputUnit = c.unit
 	}
 	switch {
 	case c.birth != "" || c.visit != "":
 		if c.birth == "" || c.visit == "" {
 			return nil, usagef(cmd, "%s: --birth-column and --visit-column go together", cmd)
 		}
-		if set["age-column"] {
+		if c.age != "" {
 			return nil, usagef(cmd, "%s: give --age-column or --birth-column with --visit-column, not both", cmd)
 		}
 		s.Birth, s.Measured = c.birth, c.visit
 	default:
 		s.Age = c.age
-	}
-	if s.InputUnit == "" {
-		s.InputUnit = s.Unit
-	}
-	switch {
-	case c.stratum != "":
-		s.Stratum = c.stratum
-	case len(r.Strata) > 1 && c.stratumName == "":
-		s.Stratum = "stratum"
 	}
 	if c.codes != "" {
 		m, err := intake.ParseCodes(c.codes)
@@ -341,6 +304,15 @@ func (c *columnFlags) spec(cmd string, r *curve.Reference, fs *flag.FlagSet) (*i
 		s.StratumCodes = m
 	}
 	return s, nil
+}
+
+// needStratum refuses a file read without a stratum column against a
+// reference with several strata, unless --stratum puts every row in one.
+func (c *columnFlags) needStratum(r *curve.Reference, t *intake.Table) error {
+	if c.stratumName != "" {
+		return nil
+	}
+	return scorefile.NeedStratum(r, t)
 }
 
 // rowStratum is the stratum of a row: the --stratum flag when given (all

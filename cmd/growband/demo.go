@@ -12,6 +12,7 @@ import (
 	"growband/curve"
 	"growband/examples/district"
 	"growband/internal/intake"
+	"growband/internal/scorefile"
 )
 
 const demoUsage = `usage: growband demo [--out DIR] [--measure weight|length] [--half] [--quiet]
@@ -173,9 +174,9 @@ func demoScores(w io.Writer, r *curve.Reference, rows []district.Row, keep map[s
 			s, err := r.Score(sex, v.AgeMonths, val)
 			z, c := "", ""
 			if err != nil {
-				z = scoreReason(r, err)
+				z = scorefile.Reason(r, err)
 			} else {
-				z, c = zText(s.Z), centileText(s.Centile)
+				z, c = scorefile.ZText(s.Z), scorefile.CentileText(s.Centile)
 			}
 			fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\t%s\t%s\t\n", id, v.Clinic, v.SexCode+" = "+sex, fmt.Sprintf("%.2f", v.AgeMonths), fmt.Sprintf("%.1f", val), z, c)
 		}

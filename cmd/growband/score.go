@@ -1,9 +1,6 @@
 package main
 
 import (
-	"encoding/csv"
-	"encoding/json"
-	"errors"
 	"io"
 	"math"
 	"strconv"
@@ -11,6 +8,7 @@ import (
 
 	"growband/curve"
 	"growband/internal/intake"
+	"growband/internal/scorefile"
 )
 
 const scoreUsage = `usage: growband score --ref FILE --in FILE.csv [column flags] [--format csv|json]
@@ -80,7 +78,7 @@ func runScore(args []string, stdout, stderr io.Writer) error {
 		}
 		return scoreOne(stdout, ref, cols.stratumName, age, value, *format)
 	}
-	spec, err := cols.spec("score", ref, fs)
+	spec, err := cols.spec("score", ref)
 	if err != nil {
 		return err
 	}
@@ -88,134 +86,47 @@ func runScore(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	out := scoreTable(ref, t, cols.rowStratum)
+	var stratum func(string) string
+	if cols.stratumName != "" {
+		stratum = cols.rowStratum
+	}
+	out, err := scorefile.Score(ref, t, stratum)
+	if err != nil {
+		return err
+	}
 	n := 0
 	for _, o := range out {
-		if o.ok {
+		if o.OK {
 			n++
 		}
 	}
 	progress{w: stderr}.printf("%s: %d of %d rows scored; %d not scored (reason in the flag column)", t.Name, n, len(out), len(out)-n)
 	if *format == "json" {
-		return writeScoresJSON(stdout, ref, t.Header, out)
+		return scorefile.WriteJSON(stdout, ref, t.Header, out)
 	}
-	return writeScoresCSV(stdout, t.Header, out)
-}
-
-// scored is one input row with its score, or the reason it has none.
-type scored struct {
-	line   int
-	fields []string
-	z, c   float64
-	flag   string
-	ok     bool
-}
-
-// scoreTable scores every row of t in file order.
-func scoreTable(r *curve.Reference, t *intake.Table, stratum func(string) string) []scored {
-	var out []scored
-	for _, rec := range t.All() {
-		o := scored{line: rec.Line, fields: rec.Fields, z: math.NaN(), c: math.NaN()}
-		switch {
-		case rec.Excl != nil:
-			o.flag = rec.Excl.Text()
-		default:
-			s, err := r.Score(stratum(rec.Row.Stratum), rec.Row.Age, rec.Row.Value)
-			if err != nil {
-				o.flag = scoreReason(r, err)
-			} else {
-				o.z, o.c, o.flag, o.ok = s.Z, s.Centile, s.Flags.String(), true
-			}
-		}
-		out = append(out, o)
-	}
-	return out
-}
-
-// scoreReason is the short text of a scoring error for the flag column.
-func scoreReason(r *curve.Reference, err error) string {
-	switch {
-	case errors.Is(err, curve.ErrAgeRange):
-		return "age outside the reference's range"
-	case errors.Is(err, curve.ErrUnknownStratum):
-		return "unknown stratum (reference has " + strataNames(r) + ")"
-	case errors.Is(err, curve.ErrValue):
-		return "value is not a finite number"
-	case errors.Is(err, curve.ErrDegenerate):
-		return "centiles coincide at this age"
-	}
-	return err.Error()
+	return scorefile.WriteCSV(stdout, t.Header, out)
 }
 
 // scoreOne scores a single measurement. A measurement that cannot be
 // scored is still written, flagged, and the error returned.
 func scoreOne(w io.Writer, r *curve.Reference, stratum string, age, value float64, format string) error {
-	o := scored{line: 0, fields: []string{stratum, ageText(age), num(value)}, z: math.NaN(), c: math.NaN()}
+	o := scorefile.Row{Fields: []string{stratum, ageText(age), num(value)}, Stratum: stratum, Age: age, Value: value,
+		Z: math.NaN(), Centile: math.NaN()}
 	s, err := r.Score(stratum, age, value)
 	if err != nil {
-		o.flag = scoreReason(r, err)
+		o.Flag = scorefile.Reason(r, err)
 	} else {
-		o.z, o.c, o.flag, o.ok = s.Z, s.Centile, s.Flags.String(), true
+		o.Z, o.Centile, o.Flag, o.OK = s.Z, s.Centile, s.Flags.String(), true
 	}
 	head := []string{"stratum", "age", "value"}
 	var werr error
 	if format == "json" {
-		werr = writeScoresJSON(w, r, head, []scored{o})
+		werr = scorefile.WriteJSON(w, r, head, []scorefile.Row{o})
 	} else {
-		werr = writeScoresCSV(w, head, []scored{o})
+		werr = scorefile.WriteCSV(w, head, []scorefile.Row{o})
 	}
 	if err != nil {
 		return err
 	}
 	return werr
-}
-
-// writeScoresCSV echoes the rows with z, centile and flag columns added.
-func writeScoresCSV(w io.Writer, header []string, rows []scored) error {
-	cw := csv.NewWriter(w)
-	cw.Write(append(append([]string(nil), header...), "z", "centile", "flag"))
-	for _, o := range rows {
-		cw.Write(append(append([]string(nil), o.fields...), zText(o.z), centileText(o.c), o.flag))
-	}
-	cw.Flush()
-	return cw.Error()
-}
-
-// writeScoresJSON writes the rows as one JSON document; z and centile are
-// null for rows not scored.
-func writeScoresJSON(w io.Writer, r *curve.Reference, header []string, rows []scored) error {
-	type row struct {
-		Line    int         `json:"line,omitempty"`
-		Fields  []string    `json:"fields"`
-		Z       *jsonNumber `json:"z"`
-		Centile *jsonNumber `json:"centile"`
-		Flag    string      `json:"flag"`
-	}
-	doc := struct {
-		Measure string   `json:"measure"`
-		Unit    string   `json:"unit"`
-		AgeUnit string   `json:"age_unit"`
-		Header  []string `json:"header"`
-		Rows    []row    `json:"rows"`
-		Caution string   `json:"caution"`
-	}{r.Measure, r.Unit, r.AgeUnit, header, nil, curve.Caution}
-	for _, o := range rows {
-		x := row{Line: o.line, Fields: o.fields, Flag: o.flag}
-		if x.Fields == nil {
-			x.Fields = []string{}
-		}
-		if o.ok {
-			z, c := jsonNumber(round(o.z, 3)), jsonNumber(round(o.c, 4))
-			x.Z, x.Centile = &z, &c
-		}
-		doc.Rows = append(doc.Rows, x)
-	}
-	enc := json.NewEncoder(w)
-	enc.SetIndent("", "  ")
-	return enc.Encode(doc)
-}
-
-func round(x float64, digits int) float64 {
-	p := math.Pow(10, float64(digits))
-	return math.Round(x*p) / p
 }

@@ -2,175 +2,55 @@ package clinic
 
 import (
 	"bytes"
-	"encoding/csv"
 	"errors"
 	"fmt"
 	"io"
 	"mime/multipart"
 	"net/http"
 	"path"
-	"strconv"
 	"strings"
-	"unicode/utf8"
-)
 
-// Header names recognised in a batch file, compared after trimming spaces and
-// ignoring case. Other columns are copied through unchanged.
-var (
-	ageNames      = []string{"age"}
-	birthNames    = []string{"birth", "birth_date", "date_of_birth", "dob"}
-	measuredNames = []string{"measured", "visit", "visit_date", "date_measured"}
-	valueNames    = []string{"value"}
-	stratumNames_ = []string{"stratum", "sex", "group"}
+	"growband/internal/intake"
+	"growband/internal/scorefile"
 )
-
-// batchColumns are the columns added to a scored batch file.
-var batchColumns = []string{"age_used", "z", "centile", "flags", "note"}
 
 // fileField names the uploaded file in errors.
 const fileField = "file"
 
-// scoreCSV scores every data row of the CSV file data against reference ref
-// and writes the file back with batchColumns appended; a row that cannot be
-// scored keeps empty z and centile, the flag "unscored" and the reason in the
-// note. Problems with the file as a whole are *inputError naming fileField.
-func (h *handler) scoreCSV(w io.Writer, data []byte, ref int) ([]result, error) {
-	data = bytes.TrimPrefix(data, []byte("\ufeff"))
-	if len(bytes.TrimSpace(data)) == 0 {
-		return nil, fieldErr(fileField, "the file is empty")
-	}
-	if !utf8.Valid(data) || bytes.IndexByte(data, 0) >= 0 {
-		return nil, fieldErr(fileField, "the file is not UTF-8 text; save it as CSV")
-	}
-	delim := detectDelimiter(data)
-	rd := csv.NewReader(bytes.NewReader(data))
-	rd.Comma = delim
-	rd.FieldsPerRecord = -1
-	header, err := rd.Read()
-	if err != nil {
-		return nil, fieldErr(fileField, "cannot read the header line: %v", err)
-	}
-	col := func(names []string) int {
-		for i, hname := range header {
-			for _, n := range names {
-				if strings.EqualFold(strings.TrimSpace(hname), n) {
-					return i
-				}
-			}
-		}
-		return -1
-	}
-	iAge, iBirth, iMeas, iVal, iStr := col(ageNames), col(birthNames), col(measuredNames), col(valueNames), col(stratumNames_)
-	have := strings.Join(header, ", ")
-	if iVal < 0 {
-		return nil, fieldErr(fileField, "no value column (have: %s)", have)
-	}
-	if iAge < 0 && (iBirth < 0 || iMeas < 0) {
-		return nil, fieldErr(fileField, "need an age column, or birth and measured date columns (have: %s)", have)
-	}
+// scoreCSV scores every data row of the CSV file data (named name in
+// messages) against reference ref and writes the file back as
+// `growband score --in` does: read by intake with the rules of
+// scorefile.Spec, every row echoed with z, centile and flag added, a row that
+// cannot be scored keeping empty z and centile and the reason in flag.
+// Problems with the file as a whole are *inputError naming fileField, with
+// the file's line. It returns the scored rows as results, for the audit log.
+func (h *handler) scoreCSV(w io.Writer, name string, data []byte, ref int) ([]result, error) {
 	r := h.cat.refs[ref]
-	if iStr < 0 && len(r.Strata) > 1 {
-		return nil, fieldErr(fileField, "reference %s has strata %s: the file needs a stratum column (have: %s)",
-			h.cat.names[ref], strings.Join(stratumNames(r), ", "), have)
+	t, err := intake.Read(bytes.NewReader(data), name, scorefile.Spec(r))
+	if err != nil {
+		return nil, fieldErr(fileField, "%v", err)
 	}
-	out := csv.NewWriter(w)
-	if err := out.Write(append(append([]string{}, header...), batchColumns...)); err != nil {
+	rows, err := scorefile.Score(r, t, nil)
+	if err != nil {
+		return nil, fieldErr(fileField, "%v", err)
+	}
+	if err := scorefile.WriteCSV(w, t.Header, rows); err != nil {
 		return nil, err
 	}
-	cell := func(rec []string, i int) string {
-		if i < 0 || i >= len(rec) {
-			return ""
-		}
-		return strings.TrimSpace(rec[i])
-	}
 	var scored []result
-	for {
-		rec, err := rd.Read()
-		if err == io.EOF {
-			break
+	for _, o := range rows {
+		if !o.OK {
+			continue
 		}
-		var pe *csv.ParseError
-		if err != nil && !(errors.As(err, &pe) && errors.Is(pe.Err, csv.ErrFieldCount)) {
-			return nil, fieldErr(fileField, "%v", err)
+		z, c := o.Z, o.Centile
+		res := result{Reference: h.cat.names[ref], Stratum: o.Stratum, Age: o.Age, AgeUnit: r.AgeUnit,
+			Value: o.Value, Unit: r.Unit, Z: &z, Centile: &c, Flags: []string{}}
+		if o.Flag != "" {
+			res.Flags = strings.Split(o.Flag, ";")
 		}
-		if len(rec) == 1 && strings.TrimSpace(rec[0]) == "" {
-			continue // blank line
-		}
-		m := &measurement{Reference: h.cat.names[ref], Stratum: cell(rec, iStr)}
-		f := fields{Reference: "reference", Stratum: "stratum", Age: "age", Birth: "birth", Measured: "measured", Value: "value"}
-		var res result
-		perr := func() error {
-			if a := cell(rec, iAge); a != "" {
-				v, err := parseNumber("age", a)
-				if err != nil {
-					return err
-				}
-				m.HasAge, m.Age = true, v
-			} else {
-				m.Birth, m.Measured = cell(rec, iBirth), cell(rec, iMeas)
-				if m.Birth == "" || m.Measured == "" {
-					return fieldErr("age", "missing: no age, and no birth and measured dates")
-				}
-			}
-			v := cell(rec, iVal)
-			if v == "" {
-				return fieldErr("value", "missing value")
-			}
-			x, err := parseNumber("value", v)
-			if err != nil {
-				return err
-			}
-			m.Value = x
-			res, err = h.cat.score(m, f)
-			return err
-		}()
-		row := append(append([]string{}, rec...), make([]string, len(batchColumns))...)
-		tail := row[len(rec):]
-		if perr != nil {
-			tail[3] = "unscored"
-			tail[4] = perr.Error()
-		} else {
-			tail[0] = strconv.FormatFloat(res.Age, 'f', 4, 64)
-			if res.Z != nil {
-				tail[1] = strconv.FormatFloat(*res.Z, 'f', 4, 64)
-				tail[2] = strconv.FormatFloat(*res.Centile, 'f', 2, 64)
-			}
-			tail[3] = strings.Join(res.Flags, ";")
-			tail[4] = res.Note
-			scored = append(scored, res)
-		}
-		if err := out.Write(row); err != nil {
-			return nil, err
-		}
+		scored = append(scored, res)
 	}
-	out.Flush()
-	return scored, out.Error()
-}
-
-// detectDelimiter returns the most frequent of comma, semicolon and tab on
-// the first line outside quotes; comma when there is none.
-func detectDelimiter(data []byte) rune {
-	line := data
-	if i := bytes.IndexByte(line, '\n'); i >= 0 {
-		line = line[:i]
-	}
-	counts := map[rune]int{}
-	quoted := false
-	for _, c := range string(line) {
-		switch {
-		case c == '"':
-			quoted = !quoted
-		case !quoted && (c == ',' || c == ';' || c == '\t'):
-			counts[c]++
-		}
-	}
-	best := ','
-	for _, c := range []rune{';', '\t'} {
-		if counts[c] > counts[best] {
-			best = c
-		}
-	}
-	return best
+	return scored, nil
 }
 
 // handleBatchAPI is POST /api/v1/batch?reference=NAME with a CSV body;
@@ -190,7 +70,7 @@ func (h *handler) handleBatchAPI(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	var buf bytes.Buffer
-	res, err := h.scoreCSV(&buf, data, ref)
+	res, err := h.scoreCSV(&buf, "upload", data, ref)
 	if err != nil {
 		writeInputError(w, err)
 		return
@@ -251,7 +131,7 @@ func (h *handler) handleBatchForm(w http.ResponseWriter, r *http.Request) {
 		return
 	}
 	var buf bytes.Buffer
-	res, err := h.scoreCSV(&buf, data, ref)
+	res, err := h.scoreCSV(&buf, uploadName(name), data, ref)
 	if err != nil {
 		h.renderBatchError(w, pd, err)
 		return
@@ -270,6 +150,15 @@ func (h *handler) handleBatchForm(w http.ResponseWriter, r *http.Request) {
 	w.Header().Set("Content-Type", "text/csv; charset=utf-8")
 	w.Header().Set("Content-Disposition", fmt.Sprintf("attachment; filename=%q", base+"-scored.csv"))
 	_, _ = w.Write(buf.Bytes())
+}
+
+// uploadName is the uploaded file's base name for messages, "upload" when
+// the browser sent none.
+func uploadName(name string) string {
+	if b := path.Base(strings.ReplaceAll(name, `\`, "/")); b != "." && b != "/" && b != "" {
+		return b
+	}
+	return "upload"
 }
 
 func (h *handler) renderBatchError(w http.ResponseWriter, pd *pageData, err error) {

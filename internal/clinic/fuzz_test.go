@@ -55,7 +55,7 @@ func FuzzBatchCSV(f *testing.F) {
 	}
 	h, _ := newTestHandler(f, Options{}, false)
 	f.Fuzz(func(t *testing.T, data []byte) {
-		_, err := h.scoreCSV(io.Discard, data, 0)
+		_, err := h.scoreCSV(io.Discard, "fuzz.csv", data, 0)
 		var ie *inputError
 		if err != nil && !errors.As(err, &ie) {
 			t.Fatalf("%q: error %v is not an input error", data, err)

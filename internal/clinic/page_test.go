@@ -12,6 +12,8 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+
+	"growband/internal/scorefile"
 )
 
 // zCells finds the z-scores shown in the results table.
@@ -157,16 +159,21 @@ func TestPageAddVisitAndChoose(t *testing.T) {
 	}
 }
 
+// TestBatchAPI checks that the batch upload gives what growband score
+// gives for the same file (internal/scorefile): every row echoed with z,
+// centile and flag, reasons for the rows not scored, file errors naming the
+// file and line.
 func TestBatchAPI(t *testing.T) {
 	h, r := newTestHandler(t, Options{}, false)
 	in := "id,stratum,age,value\n" +
 		"a,F,3,4.9\n" +
-		"b,M,12.5,\"9,4\"\n" + // decimal comma in a quoted field
+		"b,M,12.5,9.4\n" +
 		"c,M,30,10\n" + // age out of range
 		"d,X,3,5\n" + // unknown stratum
 		"e,F,3,heavy\n" +
 		"\n" +
-		"f,F,,5\n"
+		"f,F,,5\n" +
+		"g,F,3,\"4\n" // unterminated quote: this row only
 	rec := do(t, h, http.MethodPost, "/api/v1/batch", "text/csv", strings.NewReader(in))
 	if rec.Code != http.StatusOK {
 		t.Fatalf("status %d: %s", rec.Code, rec.Body)
@@ -175,7 +182,7 @@ func TestBatchAPI(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if len(rows) != 7 || strings.Join(rows[0], ",") != "id,stratum,age,value,age_used,z,centile,flags,note" {
+	if len(rows) != 8 || strings.Join(rows[0], ",") != "id,stratum,age,value,z,centile,flag" {
 		t.Fatalf("rows %q", rows)
 	}
 	for i, c := range []struct {
@@ -183,43 +190,39 @@ func TestBatchAPI(t *testing.T) {
 		a, v float64
 	}{{"F", 3, 4.9}, {"M", 12.5, 9.4}} {
 		d, _ := r.Score(c.s, c.a, c.v)
-		if rows[i+1][5] != strconv.FormatFloat(d.Z, 'f', 4, 64) {
-			t.Errorf("row %d: z %q, direct %v", i+1, rows[i+1][5], d.Z)
+		if rows[i+1][4] != scorefile.ZText(d.Z) || rows[i+1][5] != scorefile.CentileText(d.Centile) {
+			t.Errorf("row %d: z %q centile %q, direct %v %v", i+1, rows[i+1][4], rows[i+1][5], d.Z, d.Centile)
 		}
 	}
-	for i, want := range map[int]string{3: flagOutside, 4: "unscored", 5: "unscored", 6: "unscored"} {
-		if rows[i][7] != want || rows[i][5] != "" {
-			t.Errorf("row %d: %q, want flag %s", i, rows[i], want)
+	for i, want := range map[int]string{3: "age outside", 4: "unknown stratum", 5: "not a number", 6: "missing value", 7: "quote"} {
+		if rows[i][4] != "" || !strings.Contains(rows[i][6], want) {
+			t.Errorf("row %d: %q, want no z and a flag with %q", i, rows[i], want)
 		}
 	}
-	if !strings.Contains(rows[4][8], "unknown stratum") || !strings.Contains(rows[5][8], "not a number") {
-		t.Errorf("notes %q, %q", rows[4][8], rows[5][8])
-	}
-	// Semicolons, dates and a decimal comma.
-	in = "\ufeffStratum;Birth;Measured;Value\nF;2024-01-02;2025-01-02;7,9\n"
+	// Semicolons, a byte-order mark, headers in capitals, dates and a
+	// decimal comma.
+	in = "\ufeffSex;Birth;Measured;Value\nF;2024-01-02;2025-01-02;7,9\n"
 	rec = do(t, h, http.MethodPost, "/api/v1/batch?reference=weight", "text/csv", strings.NewReader(in))
 	rows, _ = csv.NewReader(rec.Body).ReadAll()
 	age := 366 / daysPerMonth // exact calendar arithmetic, as in TestScoreDates
-	if len(rows) != 2 || rows[1][4] != strconv.FormatFloat(age, 'f', 4, 64) ||
-		rows[1][5] != strconv.FormatFloat(testZ("F", age, 7.9), 'f', 4, 64) {
+	if len(rows) != 2 || rows[1][4] != scorefile.ZText(testZ("F", age, 7.9)) {
 		t.Errorf("rows %q", rows)
 	}
-	for _, c := range []struct{ body, query, field string }{
-		{"stratum,age\nF,3\n", "", "file"},
-		{"stratum,value\nF,3\n", "", "file"},
-		{"age,value\n3,4\n", "", "file"}, // two strata, no stratum column
-		{"", "", "file"},
-		{"age,value\n\x00\x01", "", "file"},
-		{"stratum,age,value\nF,3,\"4\n", "", "file"},
-		{"stratum,age,value\nF,3,4\n", "?reference=nope", "reference"},
+	for _, c := range []struct{ body, query, field, msg string }{
+		{"stratum,age\nF,3\n", "", "file", "upload:1: no value column"},
+		{"stratum,value\nF,3\n", "", "file", "upload:1: no age"},
+		{"age,value\n3,4\n", "", "file", "no stratum column"}, // two strata
+		{"", "", "file", "empty"},
+		{"age,value\n\x00\x01", "", "file", "NUL"},
+		{"stratum,age,value\nF,3,4\n", "?reference=nope", "reference", "nope"},
 	} {
 		rec := do(t, h, http.MethodPost, "/api/v1/batch"+c.query, "text/csv", strings.NewReader(c.body))
 		if rec.Code != http.StatusBadRequest {
 			t.Errorf("%q: status %d", c.body, rec.Code)
 			continue
 		}
-		if e := decode[errorBody](t, rec); e.Field != c.field {
-			t.Errorf("%q: %+v", c.body, e)
+		if e := decode[errorBody](t, rec); e.Field != c.field || !strings.Contains(e.Error, c.msg) {
+			t.Errorf("%q: %+v, want field %s and %q", c.body, e, c.field, c.msg)
 		}
 	}
 }

@@ -72,6 +72,11 @@ func Read(r io.Reader, name string, spec *Spec) (*Table, error) {
 		return nil, errAt(name, hdrLine, ErrHeader, "header row: %v", err)
 	}
 	hdrLine, _ = cr.FieldPos(0)
+	if p.Look != nil {
+		if err := p.look(header); err != nil {
+			return nil, errAt(name, hdrLine, ErrColumn, "%s", err)
+		}
+	}
 	cols, err := p.columns(header, name, hdrLine)
 	if err != nil {
 		return nil, err
@@ -91,6 +96,7 @@ func Read(r io.Reader, name string, spec *Spec) (*Table, error) {
 		Delimiter:  delim,
 		Total:      len(recs),
 		hasWeight:  p.Weight != "",
+		Stratum:    p.Stratum,
 		hasStratum: p.Stratum != "",
 		hasSubject: p.Subject != "",
 	}

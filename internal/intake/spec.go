@@ -77,6 +77,30 @@ type Spec struct {
 	// KeepDuplicates turns off the duplicate check, as wanted when scoring
 	// new measurements where every row is echoed back.
 	KeepDuplicates bool
+
+	// Look, when not nil, finds the columns left "" above in the header by
+	// these names (see Names). nil uses the columns only as named.
+	Look *Names
+}
+
+// Names lists, per column, the header names under which Read looks for a
+// column the Spec leaves "". Names are compared after trimming spaces and
+// ignoring case, in order, the first present winning. The age is read from
+// an Age column when one is found, else from Birth and Measured date
+// columns; Value must be found; Stratum is optional.
+type Names struct {
+	Age, Birth, Measured, Value, Stratum []string
+}
+
+// UsualNames are the names of a measurement file's columns in common use.
+// A file to be scored typically also names its value column after the
+// measure (weight, height), which the caller adds to Value.
+var UsualNames = Names{
+	Age:      []string{"age"},
+	Birth:    []string{"birth", "birth_date", "date_of_birth", "dob"},
+	Measured: []string{"measured", "visit", "visit_date", "date_measured"},
+	Value:    []string{"value"},
+	Stratum:  []string{"stratum", "sex", "group"},
 }
 
 // prepared is a Spec checked and with defaults filled in.
@@ -94,25 +118,10 @@ func (s *Spec) prepare(file string) (*prepared, error) {
 		return errAt(file, 0, ErrBadSpec, format, args...)
 	}
 	p := &prepared{Spec: *s}
-	if s.Value == "" {
-		return nil, bad("no value column given")
-	}
-	switch {
-	case s.Age != "" && (s.Birth != "" || s.Measured != ""):
-		return nil, bad("give either an age column or birth and measured date columns, not both")
-	case s.Age == "" && (s.Birth == "" || s.Measured == ""):
-		return nil, bad("give an age column, or both a birth and a measured date column")
-	}
-	seen := map[string]string{}
-	for _, c := range [][2]string{{"age", s.Age}, {"birth", s.Birth}, {"measured", s.Measured},
-		{"value", s.Value}, {"stratum", s.Stratum}, {"subject", s.Subject}, {"weight", s.Weight}} {
-		if c[1] == "" {
-			continue
+	if s.Look == nil {
+		if err := p.checkColumns(); err != nil {
+			return nil, bad("%s", err)
 		}
-		if other, dup := seen[c[1]]; dup {
-			return nil, bad("column %q is used for both %s and %s", c[1], other, c[0])
-		}
-		seen[c[1]] = c[0]
 	}
 	if p.AgeUnit == "" {
 		p.AgeUnit = "months"
@@ -174,6 +183,69 @@ func (s *Spec) prepare(file string) (*prepared, error) {
 		}
 	}
 	return p, nil
+}
+
+// checkColumns checks the combination of named columns.
+func (p *prepared) checkColumns() error {
+	switch {
+	case p.Value == "":
+		return fmt.Errorf("no value column given")
+	case p.Age != "" && (p.Birth != "" || p.Measured != ""):
+		return fmt.Errorf("give either an age column or birth and measured date columns, not both")
+	case p.Age == "" && (p.Birth == "" || p.Measured == ""):
+		return fmt.Errorf("give an age column, or both a birth and a measured date column")
+	}
+	seen := map[string]string{}
+	for _, c := range [][2]string{{"age", p.Age}, {"birth", p.Birth}, {"measured", p.Measured},
+		{"value", p.Value}, {"stratum", p.Stratum}, {"subject", p.Subject}, {"weight", p.Weight}} {
+		if c[1] == "" {
+			continue
+		}
+		if other, dup := seen[c[1]]; dup {
+			return fmt.Errorf("column %q is used for both %s and %s", c[1], other, c[0])
+		}
+		seen[c[1]] = c[0]
+	}
+	return nil
+}
+
+// look fills the columns left "" from the header by p.Look's names and
+// checks the result; the error names what is missing and lists the header.
+func (p *prepared) look(header []string) error {
+	l := p.Look
+	find := func(names []string) string {
+		for _, n := range names {
+			for _, h := range header {
+				if strings.EqualFold(strings.TrimSpace(h), n) {
+					return strings.TrimSpace(h)
+				}
+			}
+		}
+		return ""
+	}
+	have := make([]string, len(header))
+	for i, h := range header {
+		have[i] = strings.TrimSpace(h)
+	}
+	list := func(names []string) string { return strings.Join(names, " or ") }
+	if p.Value == "" {
+		if p.Value = find(l.Value); p.Value == "" {
+			return fmt.Errorf("no value column: name it %s (have: %s)", list(l.Value), strings.Join(have, ", "))
+		}
+	}
+	if p.Age == "" && p.Birth == "" && p.Measured == "" {
+		if p.Age = find(l.Age); p.Age == "" {
+			p.Birth, p.Measured = find(l.Birth), find(l.Measured)
+		}
+	}
+	if p.Age == "" && (p.Birth == "" || p.Measured == "") {
+		return fmt.Errorf("no age: need a column named %s, or date columns named %s and %s (have: %s)",
+			list(l.Age), list(l.Birth), list(l.Measured), strings.Join(have, ", "))
+	}
+	if p.Stratum == "" {
+		p.Stratum = find(l.Stratum)
+	}
+	return p.checkColumns()
 }
 
 // label maps a stratum cell to its label; ok is false for an unknown code.

@@ -41,6 +41,7 @@ type Table struct {
 	Delimiter    rune     // the delimiter used (detected or given)
 	DecimalComma bool     // whether numbers were read with a decimal comma
 	Total        int      // data rows read
+	Stratum      string   // name of the stratum column read, "" for none
 	Rows         []Row
 	Excluded     []Exclusion
 

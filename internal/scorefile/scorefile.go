@@ -1,0 +1,190 @@
+package scorefile
+
+import (
+	"encoding/csv"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"slices"
+	"strconv"
+	"strings"
+
+	"growband/curve"
+	"growband/internal/intake"
+)
+
+// Spec returns the reading rules for a file to be scored against r. Columns
+// are found by their usual names (intake.UsualNames; the value also under
+// r's measure name, which comes first); ages are in r's age unit, values in
+// r's unit, and every row is echoed back, duplicates too. Callers may name
+// columns, units or codes explicitly on the returned Spec.
+func Spec(r *curve.Reference) *intake.Spec {
+	look := intake.UsualNames
+	look.Value = slices.Clone(look.Value)
+	if r.Measure != "" && !slices.Contains(look.Value, strings.ToLower(r.Measure)) {
+		look.Value = append([]string{r.Measure}, look.Value...)
+	}
+	return &intake.Spec{AgeUnit: r.AgeUnit, Unit: r.Unit, InputUnit: r.Unit, KeepDuplicates: true, Look: &look}
+}
+
+// Row is one input row with its score, or the reason it has none.
+type Row struct {
+	Line       int      // line in the file
+	Fields     []string // the row's cells as written
+	Stratum    string   // the stratum scored in ("" when not read)
+	Age, Value float64  // as read (age in the reference's unit)
+	Z, Centile float64  // NaN when not scored
+	Flag       string   // reason not scored, or the score's remarks
+	OK         bool     // scored
+}
+
+// ErrNoStratum reports a file without a stratum column scored against a
+// reference with several strata.
+var ErrNoStratum = errors.New("no stratum column")
+
+// Score scores every row of t in file order. stratum, when not nil, gives
+// the stratum of every row from its own (for a command-line override); a
+// file read without a stratum column against a reference with several
+// strata needs one.
+func Score(r *curve.Reference, t *intake.Table, stratum func(string) string) ([]Row, error) {
+	if stratum == nil {
+		if err := NeedStratum(r, t); err != nil {
+			return nil, err
+		}
+		stratum = func(s string) string { return s }
+	}
+	var out []Row
+	for _, rec := range t.All() {
+		o := Row{Line: rec.Line, Fields: rec.Fields, Age: math.NaN(), Value: math.NaN(), Z: math.NaN(), Centile: math.NaN()}
+		if rec.Excl != nil {
+			o.Flag = rec.Excl.Text()
+			out = append(out, o)
+			continue
+		}
+		o.Stratum, o.Age, o.Value = stratum(rec.Row.Stratum), rec.Row.Age, rec.Row.Value
+		s, err := r.Score(o.Stratum, o.Age, o.Value)
+		if err != nil {
+			o.Flag = Reason(r, err)
+		} else {
+			o.Z, o.Centile, o.Flag, o.OK = s.Z, s.Centile, s.Flags.String(), true
+		}
+		out = append(out, o)
+	}
+	return out, nil
+}
+
+// NeedStratum returns an error wrapping ErrNoStratum when t was read
+// without a stratum column and r has several strata.
+func NeedStratum(r *curve.Reference, t *intake.Table) error {
+	if t.Stratum == "" && len(r.Strata) > 1 {
+		return fmt.Errorf("%s: %w: the reference has strata %s; add a column named %s",
+			t.Name, ErrNoStratum, strataNames(r), strings.Join(intake.UsualNames.Stratum, " or "))
+	}
+	return nil
+}
+
+// Reason is the short text of a scoring error for the flag column.
+func Reason(r *curve.Reference, err error) string {
+	switch {
+	case errors.Is(err, curve.ErrAgeRange):
+		return "age outside the reference's range"
+	case errors.Is(err, curve.ErrUnknownStratum):
+		return "unknown stratum (reference has " + strataNames(r) + ")"
+	case errors.Is(err, curve.ErrValue):
+		return "value is not a finite number"
+	case errors.Is(err, curve.ErrDegenerate):
+		return "centiles coincide at this age"
+	}
+	return err.Error()
+}
+
+// strataNames lists the names of r's strata for messages.
+func strataNames(r *curve.Reference) string {
+	var s []string
+	for _, st := range r.Strata {
+		s = append(s, strconv.Quote(st.Name))
+	}
+	return strings.Join(s, ", ")
+}
+
+// Columns are the columns added to the file.
+var Columns = []string{"z", "centile", "flag"}
+
+// WriteCSV echoes the rows under header with Columns added. A row with
+// fewer cells than the header (one whose quoting could not be read) is
+// padded with empty cells, so that the added columns line up.
+func WriteCSV(w io.Writer, header []string, rows []Row) error {
+	cw := csv.NewWriter(w)
+	cw.Write(append(slices.Clone(header), Columns...))
+	for _, o := range rows {
+		cells := slices.Clone(o.Fields)
+		for len(cells) < len(header) {
+			cells = append(cells, "")
+		}
+		cw.Write(append(cells, ZText(o.Z), CentileText(o.Centile), o.Flag))
+	}
+	cw.Flush()
+	return cw.Error()
+}
+
+// WriteJSON writes the rows as one JSON document with the reference's
+// measure, units and caution; z and centile are null for rows not scored.
+func WriteJSON(w io.Writer, r *curve.Reference, header []string, rows []Row) error {
+	type row struct {
+		Line    int      `json:"line,omitempty"`
+		Fields  []string `json:"fields"`
+		Z       *float64 `json:"z"`
+		Centile *float64 `json:"centile"`
+		Flag    string   `json:"flag"`
+	}
+	doc := struct {
+		Measure string   `json:"measure"`
+		Unit    string   `json:"unit"`
+		AgeUnit string   `json:"age_unit"`
+		Header  []string `json:"header"`
+		Rows    []row    `json:"rows"`
+		Caution string   `json:"caution"`
+	}{r.Measure, r.Unit, r.AgeUnit, header, []row{}, curve.Caution}
+	for _, o := range rows {
+		x := row{Line: o.Line, Fields: o.Fields, Flag: o.Flag}
+		if x.Fields == nil {
+			x.Fields = []string{}
+		}
+		if o.OK {
+			z, c := round(o.Z, 3), round(o.Centile, 4)
+			x.Z, x.Centile = &z, &c
+		}
+		doc.Rows = append(doc.Rows, x)
+	}
+	enc := json.NewEncoder(w)
+	enc.SetIndent("", "  ")
+	return enc.Encode(doc)
+}
+
+func round(x float64, digits int) float64 {
+	p := math.Pow(10, float64(digits))
+	return math.Round(x*p) / p
+}
+
+// ZText formats a z-score to three decimals; NaN is "".
+func ZText(z float64) string {
+	if math.IsNaN(z) {
+		return ""
+	}
+	return strconv.FormatFloat(z, 'f', 3, 64)
+}
+
+// CentileText formats a centile in percent to two decimals, with more
+// digits in the far tails where two decimals would read 0.00 or 100.00;
+// NaN is "".
+func CentileText(c float64) string {
+	switch {
+	case math.IsNaN(c):
+		return ""
+	case c < 0.01 || c > 99.99:
+		return strconv.FormatFloat(c, 'g', 6, 64)
+	}
+	return strconv.FormatFloat(c, 'f', 2, 64)
+}
