@@ -127,3 +127,19 @@ func TestErrorMessages(t *testing.T) {
 		}
 	}
 }
+
+// TestStatusTies checks Status on medians solved by hand: the median of
+// {1, 2, 4} is 2 and unique; every b in [2, 3] is a median of {1, 2, 3, 4},
+// so the optimum found is tied (Koenker & Bassett 1978; exact arithmetic).
+func TestStatusTies(t *testing.T) {
+	x := NewDense([][]float64{{1}, {1}, {1}})
+	sol, err := Solve(&Problem{Y: []float64{1, 2, 4}, X: x, Tau: 0.5}, &Settings{Method: Simplex})
+	if err != nil || sol.Status != Optimal || sol.Coef[0] != 2 {
+		t.Errorf("{1, 2, 4}: %+v, %v", sol, err)
+	}
+	x4 := NewDense([][]float64{{1}, {1}, {1}, {1}})
+	sol, err = Solve(&Problem{Y: []float64{1, 2, 3, 4}, X: x4, Tau: 0.5}, &Settings{Method: Simplex})
+	if err != nil || sol.Status != OptimalTied || sol.Coef[0] < 2 || sol.Coef[0] > 3 {
+		t.Errorf("{1, 2, 3, 4}: %+v, %v", sol, err)
+	}
+}

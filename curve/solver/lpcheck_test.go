@@ -471,6 +471,10 @@ func testAgainstGonum(t *testing.T, tp testProblem, certTol float64) {
 			continue
 		}
 		checkCertificate(t, tp.p, sol, certTol)
+		// Status agrees with the test's own reading of the multipliers.
+		if (sol.Status == Optimal) != testUnique(tp.p, sol) {
+			t.Errorf("%s, %v: status %v, but unique by the multipliers: %v", tp.name, m, sol.Status, testUnique(tp.p, sol))
+		}
 		if (m != Auto && sol.Method != m) || sol.Method == Auto {
 			t.Errorf("%s, %v: Solution.Method = %v", tp.name, m, sol.Method)
 		}

@@ -142,7 +142,40 @@ type Solution struct {
 	// Reductions counts how many times the preprocessing had to repair a
 	// wrongly fixed sign.
 	Reductions int
+	// Status says whether the optimum is known to be unique. A problem
+	// that cannot be solved returns an error instead.
+	Status Status
 }
+
+// Status is what a Solution proves about its optimum.
+type Status int
+
+const (
+	// Optimal: every basis condition has its multiplier strictly inside
+	// its range (soft rows in (-c_i, a_i), constraints > 0), so every
+	// optimum satisfies the same p conditions: Coef is the unique optimum.
+	Optimal Status = iota + 1
+	// OptimalTied: Coef is optimal, but a basis multiplier sits at the end
+	// of its range, so other optima may exist; regression quantiles of a
+	// sample are tied so, for example, when n·tau is a whole number
+	// (Koenker & Bassett 1978).
+	OptimalTied
+)
+
+func (s Status) String() string {
+	switch s {
+	case Optimal:
+		return "optimal"
+	case OptimalTied:
+		return "optimal, possibly tied"
+	}
+	return fmt.Sprintf("Status(%d)", int(s))
+}
+
+// tiedMultiplier: a basis multiplier within tiedMultiplier times its
+// range of the range's end counts as at the end (rounding of the basis
+// solve, common practice).
+const tiedMultiplier = 1e-9
 
 // validate returns a typed error for bad user data.
 func (p *Problem) validate() error {

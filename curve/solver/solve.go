@@ -168,7 +168,22 @@ func solution(t *table, a *answer) *Solution {
 	for k, i := range zero {
 		zd[k] = a.dualAt(i)
 	}
+	status := Optimal
+	_, cs := t.scales()
+	for _, i := range v.basis {
+		if i >= t.nSoft {
+			if a.mu[i-t.nSoft] <= tiedMultiplier*cs {
+				status = OptimalTied
+			}
+			continue
+		}
+		d, lo, hi := a.dualAt(i), -t.c[i], t.a[i]
+		if m := tiedMultiplier * (hi - lo); d <= lo+m || d >= hi-m {
+			status = OptimalTied
+		}
+	}
 	return &Solution{
+		Status:         status,
 		Coef:           slices.Clone(v.b),
 		Objective:      a.obj,
 		Iterations:     v.iters,
