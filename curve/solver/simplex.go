@@ -1,7 +1,6 @@
 package solver
 
 import (
-	"cmp"
 	"fmt"
 	"math"
 	"slices"
@@ -61,7 +60,9 @@ type simplex struct {
 	col   []float64
 	norms []float64
 	bps   []breakpoint
-	row   []float64
+	// passed holds the rows whose breakpoints a step has passed.
+	passed []int
+	row    []float64
 
 	tolZero, tolSlope float64
 	iter, maxIter     int
@@ -274,27 +275,77 @@ func (s *simplex) step(k int, dir float64, slope float64, bland bool) (enter int
 			s.bps = append(s.bps, breakpoint{t: math.Min(s.r[i], 0) / v, inc: -cost * v, i: i})
 		}
 	}
-	slices.SortFunc(s.bps, func(x, y breakpoint) int {
-		if c := cmp.Compare(x.t, y.t); c != 0 || !bland {
-			return c
-		}
-		return cmp.Compare(x.i, y.i)
-	})
+	// Breakpoints are taken in order of t from a heap: a long step passes
+	// few of the many, so sorting them all would cost most of the step.
+	h := bpHeap{bps: s.bps, bland: bland}
+	h.init()
 	// The slope is a sum of terms; rounding is relative to their size.
 	size := math.Abs(slope)
-	for n, bp := range s.bps {
+	s.passed = s.passed[:0]
+	for len(h.bps) > 0 {
+		bp := h.pop()
 		slope += bp.inc
 		size += bp.inc
 		// Under the smallest-index rule every step is a plain pivot to the
 		// first breakpoint, which cannot cycle (Bland 1977).
 		if bland || slope >= -optimalSlope*size {
-			for _, q := range s.bps[:n] {
-				s.side[q.i] = -s.side[q.i]
+			for _, i := range s.passed {
+				s.side[i] = -s.side[i]
 			}
 			return bp.i, bp.t, nil
 		}
+		s.passed = append(s.passed, bp.i)
 	}
 	return -1, 0, fmt.Errorf("%w: objective unbounded along an edge", ErrRankDeficient)
+}
+
+// bpHeap is a binary min-heap of breakpoints by t, then, under the
+// smallest-index rule, by row.
+type bpHeap struct {
+	bps   []breakpoint
+	bland bool
+}
+
+func (h *bpHeap) less(a, b int) bool {
+	x, y := h.bps[a], h.bps[b]
+	if x.t != y.t || !h.bland {
+		return x.t < y.t
+	}
+	return x.i < y.i
+}
+
+func (h *bpHeap) init() {
+	for k := len(h.bps)/2 - 1; k >= 0; k-- {
+		h.down(k)
+	}
+}
+
+func (h *bpHeap) down(k int) {
+	n := len(h.bps)
+	for {
+		c := 2*k + 1
+		if c >= n {
+			return
+		}
+		if c+1 < n && h.less(c+1, c) {
+			c++
+		}
+		if !h.less(c, k) {
+			return
+		}
+		h.bps[k], h.bps[c] = h.bps[c], h.bps[k]
+		k = c
+	}
+}
+
+// pop removes and returns the least breakpoint.
+func (h *bpHeap) pop() breakpoint {
+	top := h.bps[0]
+	last := len(h.bps) - 1
+	h.bps[0] = h.bps[last]
+	h.bps = h.bps[:last]
+	h.down(0)
+	return top
 }
 
 // run descends until the vertex is optimal.
