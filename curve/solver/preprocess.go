@@ -401,12 +401,16 @@ func (red *reduction) pass(b []float64, tol, tie float64, into *reduction) (bad,
 		klo, khi = into.klo, into.khi
 	}
 	sign := red.sign[:n]
+	var sumAbs, sumLin float64
 	for i, fi := range first {
 		xi := x.Val[i*w : i*w+w]
 		if check {
 			ri := y[i] - rowDot(xi, b, fi)
-			// Branch-free in the sign of ri, which alternates at random.
-			obj += ca[i]*max(ri, 0) - cc[i]*min(ri, 0)
+			// rho(r) = ((a+c)|r| + (a-c)r)/2, free of branches on the sign
+			// of r, which alternates at random (and of the built-in max,
+			// which orders NaN and signed zeros).
+			sumAbs += (ca[i] + cc[i]) * math.Abs(ri)
+			sumLin += (ca[i] - cc[i]) * ri
 			if float64(sign[i])*ri < -tol {
 				bad = append(bad, i)
 			}
@@ -451,6 +455,7 @@ func (red *reduction) pass(b []float64, tol, tie float64, into *reduction) (bad,
 		downY += gd * yi
 		downW += gd
 	}
+	obj = (sumAbs + sumLin) / 2
 	if into != nil {
 		into.scale.filled = true
 		for k := range up {
