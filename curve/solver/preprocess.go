@@ -469,6 +469,8 @@ func (red *reduction) pass(b []float64, tol, tie float64, into *reduction) (bad,
 	return bad, zero, obj
 }
 
+// nth returns the k-th smallest element of a, partly reordering a
+// (Hoare's selection, expected linear time).
 func nth(a []float64, k int) float64 {
 	lo, hi := 0, len(a)-1
 	for lo < hi {
