@@ -170,13 +170,6 @@ func hasFlags(fs *flag.FlagSet) bool {
 	return n > 0
 }
 
-// given reports which flags were set on the command line.
-func given(fs *flag.FlagSet) map[string]bool {
-	m := map[string]bool{}
-	fs.Visit(func(f *flag.Flag) { m[f.Name] = true })
-	return m
-}
-
 // progress writes "growband: ..." lines to stderr.
 type progress struct{ w io.Writer }
 

@@ -96,8 +96,7 @@ func interior(t *table, maxIter int, gap float64) (b []float64, iters int, err e
 		}
 		// Predictor: the affine-scaling direction.
 		s.solve()
-		var aff float64
-		ap, ad, aff = s.sweep(true)
+		_, _, aff := s.sweep(true)
 		comp := s.comp
 		sigma := math.Pow(math.Max(aff, 0)/comp, 3)
 		// Corrector: centring plus the second-order term of the predictor.
