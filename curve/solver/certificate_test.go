@@ -28,7 +28,7 @@ import (
 // The dual LP is: maximise y'd + h'mu over the same set, and
 // primal - dual = sum_i (f_i(r_i) - r_i d_i) + s'mu >= 0 (exact identity), so a
 // zero gap proves optimality. This matches the sign convention documented on
-// Solution.Dual ("X'd + D'd_pen + G'mu = 0", d_i in [-c_i, a_i]).
+// Solution.Zero ("X'd + D'd_pen + G'mu = 0", d_i in [-c_i, a_i]).
 
 // certMaxCond bounds the condition number of the basis rows: above it the
 // listed conditions do not define a vertex in floating point (common practice).

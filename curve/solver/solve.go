@@ -24,7 +24,8 @@ type vertex struct {
 const tieResidual = 10 * zeroResidual
 
 // answer is what a solve on the full table found: the vertex in full-table
-// rows, the residuals r at it, and the multiplier of any soft row.
+// rows, the residuals r at it (nil after a reduced solve, whose verifying
+// pass lists the zero rows instead), and the multiplier of any soft row.
 type answer struct {
 	v      *vertex
 	r      []float64
@@ -84,9 +85,9 @@ func solve(pr *Problem, s *Settings) (*Solution, error) {
 }
 
 // solveOn solves the problem pr whose internal form is t (with the costs of
-// pr.Tau), starting from start when it fits. cr carries residuals and row
-// scales from solving a neighbouring problem on t (cr.r holds start's
-// residuals, or is nil); on return cr.r holds the residuals at the answer.
+// pr.Tau), starting from start when it fits and is near enough. cr carries
+// what a reduced solve on t leaves for the next (see carry): the guess to
+// classify rows by, perhaps the classification itself, and the row scales.
 func solveOn(t *table, pr *Problem, s *Settings, start *Solution, cr *carry) (*Solution, error) {
 	n := pr.X.Rows()
 	method := s.Method
