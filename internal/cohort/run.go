@@ -17,6 +17,7 @@ import (
 
 	"growband/curve"
 	"growband/internal/intake"
+	"growband/internal/scorefile"
 	"growband/render"
 )
 
@@ -71,9 +72,9 @@ func RunCompare(args []string, stdout, stderr io.Writer) error {
 	name := fs.String("name", "", "label of the cohort (default: the file name)")
 	vsName := fs.String("vs-name", "", "label of the --vs cohort (default: its file name)")
 	var col intake.Spec
-	fs.StringVar(&col.Age, "age-column", "age", "column holding the age, in the reference's age unit")
-	fs.StringVar(&col.Value, "value-column", "", "column holding the measurement (default: the reference's measure name)")
-	fs.StringVar(&col.Stratum, "stratum-column", "", `column holding the stratum (default: "stratum" when the reference has several strata)`)
+	fs.StringVar(&col.Age, "age-column", "", `column holding the age, in the reference's age unit (default: a column named "age")`)
+	fs.StringVar(&col.Value, "value-column", "", `column holding the measurement (default: a column named after the reference's measure, or "value")`)
+	fs.StringVar(&col.Stratum, "stratum-column", "", `column holding the stratum (default: a column named "stratum", "sex" or "group")`)
 	fs.StringVar(&col.Subject, "subject-column", "", "column holding the subject id: intervals become cluster-robust")
 	fs.StringVar(&col.Weight, "weight-column", "", "column holding survey weights (positive)")
 	fs.StringVar(&col.InputUnit, "unit", "", "unit of the values in the file, converted to the reference's unit")
@@ -125,18 +126,13 @@ func RunCompare(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	spec := col
-	spec.AgeUnit, spec.Unit, spec.KeepDuplicates = ref.AgeUnit, ref.Unit, true
-	if spec.Value == "" {
-		if spec.Value = ref.Measure; spec.Value == "" {
-			return usage("the reference names no measure: give --value-column")
-		}
-	}
-	if spec.InputUnit == "" {
-		spec.InputUnit = spec.Unit
-	}
-	if spec.Stratum == "" && len(ref.Strata) > 1 {
-		spec.Stratum = "stratum"
+	// The rules every command reads a file to score by, with the columns
+	// and unit the flags name.
+	spec := scorefile.Spec(ref)
+	spec.Age, spec.Value, spec.Stratum = col.Age, col.Value, col.Stratum
+	spec.Subject, spec.Weight = col.Subject, col.Weight
+	if col.InputUnit != "" {
+		spec.InputUnit = col.InputUnit
 	}
 	if *codes != "" {
 		m, err := intake.ParseCodes(*codes)
@@ -146,7 +142,7 @@ func RunCompare(args []string, stdout, stderr io.Writer) error {
 		spec.StratumCodes = m
 	}
 
-	ta, da, err := readCohort(*in, &spec, stderr)
+	ta, da, err := readCohort(*in, ref, spec, stderr)
 	if err != nil {
 		return err
 	}
@@ -166,7 +162,7 @@ func RunCompare(args []string, stdout, stderr io.Writer) error {
 		doc.Cohorts = []*Result{r}
 	} else {
 		var db *curve.Data
-		if tb, db, err = readCohort(*vs, &spec, stderr); err != nil {
+		if tb, db, err = readCohort(*vs, ref, spec, stderr); err != nil {
 			return err
 		}
 		two, err := CompareTwo(ref, da, db, opt)
@@ -303,10 +299,15 @@ func RunCompare(args []string, stdout, stderr io.Writer) error {
 	return nil
 }
 
-// readCohort reads a cohort file and reports the rows it could not read.
-func readCohort(path string, spec *intake.Spec, stderr io.Writer) (*intake.Table, *curve.Data, error) {
+// readCohort reads a cohort file by spec and reports the rows it could not
+// read; a file without a stratum column is refused against a reference with
+// several strata.
+func readCohort(path string, ref *curve.Reference, spec *intake.Spec, stderr io.Writer) (*intake.Table, *curve.Data, error) {
 	t, err := intake.ReadFile(path, spec)
 	if err != nil {
+		return nil, nil, err
+	}
+	if err := scorefile.NeedStratum(ref, t); err != nil {
 		return nil, nil, err
 	}
 	if len(t.Excluded) > 0 {
