@@ -91,7 +91,7 @@ func runChart(args []string, stdout, stderr io.Writer) error {
 // chartStratum picks the stratum to draw.
 func chartStratum(r *curve.Reference, name string) (*curve.Stratum, error) {
 	if name == "" && len(r.Strata) > 1 {
-		return nil, usagef("chart", "chart: the reference has strata %s: choose one with --stratum", strataNames(r))
+		return nil, usagef("chart", "chart: the reference has strata %s: choose one with --stratum", scorefile.StrataNames(r))
 	}
 	return r.Stratum(name)
 }

@@ -324,15 +324,6 @@ func (c *columnFlags) rowStratum(row string) string {
 	return row
 }
 
-// strataNames lists the names of r's strata for messages.
-func strataNames(r *curve.Reference) string {
-	var s []string
-	for _, st := range r.Strata {
-		s = append(s, strconv.Quote(st.Name))
-	}
-	return strings.Join(s, ", ")
-}
-
 // chartCentiles returns the stratum's chart centiles in percent.
 func chartCentiles(st *curve.Stratum) []float64 {
 	out := make([]float64, len(st.Chart))

@@ -74,7 +74,7 @@ func runScore(args []string, stdout, stderr io.Writer) error {
 	}
 	if single {
 		if cols.stratumName == "" && len(ref.Strata) > 1 {
-			return usagef("score", "score: the reference has strata %s: name one with --stratum", strataNames(ref))
+			return usagef("score", "score: the reference has strata %s: name one with --stratum", scorefile.StrataNames(ref))
 		}
 		return scoreOne(stdout, ref, cols.stratumName, age, value, *format)
 	}

@@ -421,7 +421,7 @@ func (red *reduction) pass(b []float64, tol, tie float64, into *reduction) (bad,
 		if into == nil {
 			continue
 		}
-		// The row is pooled below when its scaled residual r*num/den is
+		// The row is pooled below when its scaled residual r*scale is
 		// below klo, above when above khi. Which it is alternates at random
 		// along the rows, so the choice is made without branching (the
 		// compiler emits conditional moves) and both pools are summed,

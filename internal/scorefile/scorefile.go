@@ -80,7 +80,7 @@ func Score(r *curve.Reference, t *intake.Table, stratum func(string) string) ([]
 func NeedStratum(r *curve.Reference, t *intake.Table) error {
 	if t.Stratum == "" && len(r.Strata) > 1 {
 		return fmt.Errorf("%s: %w: the reference has strata %s; add a column named %s",
-			t.Name, ErrNoStratum, strataNames(r), strings.Join(intake.UsualNames.Stratum, " or "))
+			t.Name, ErrNoStratum, StrataNames(r), strings.Join(intake.UsualNames.Stratum, " or "))
 	}
 	return nil
 }
@@ -91,7 +91,7 @@ func Reason(r *curve.Reference, err error) string {
 	case errors.Is(err, curve.ErrAgeRange):
 		return "age outside the reference's range"
 	case errors.Is(err, curve.ErrUnknownStratum):
-		return "unknown stratum (reference has " + strataNames(r) + ")"
+		return "unknown stratum (reference has " + StrataNames(r) + ")"
 	case errors.Is(err, curve.ErrValue):
 		return "value is not a finite number"
 	case errors.Is(err, curve.ErrDegenerate):
@@ -100,8 +100,8 @@ func Reason(r *curve.Reference, err error) string {
 	return err.Error()
 }
 
-// strataNames lists the names of r's strata for messages.
-func strataNames(r *curve.Reference) string {
+// StrataNames lists the quoted names of r's strata for messages.
+func StrataNames(r *curve.Reference) string {
 	var s []string
 	for _, st := range r.Strata {
 		s = append(s, strconv.Quote(st.Name))
