@@ -8,7 +8,6 @@ import (
 	"runtime/debug"
 	"strings"
 
-	"growband/internal/clinic"
 	"growband/internal/cohort"
 )
 
@@ -41,7 +40,7 @@ var commands = map[string]command{
 	"chart":   runChart,
 	"check":   runCheck,
 	"compare": adapt("compare", cohort.RunCompare),
-	"serve":   adapt("serve", clinic.RunServe),
+	"serve":   runServe,
 }
 
 // adapt maps the help and usage errors of a subcommand that lives in its own
@@ -53,7 +52,7 @@ func adapt(name string, c command) command {
 		switch {
 		case errors.Is(err, flag.ErrHelp):
 			return errHelp
-		case errors.As(err, &u), errors.Is(err, clinic.ErrUsage):
+		case errors.As(err, &u):
 			return usagef(name, "%v", err)
 		}
 		return err

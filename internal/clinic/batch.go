@@ -75,7 +75,10 @@ func (h *handler) handleBatchAPI(w http.ResponseWriter, r *http.Request) {
 		writeInputError(w, err)
 		return
 	}
-	h.audit.record("batch", res...)
+	if err := h.audit.record("batch", res...); err != nil {
+		writeAuditError(w, err)
+		return
+	}
 	w.Header().Set("Content-Type", "text/csv; charset=utf-8")
 	_, _ = w.Write(buf.Bytes())
 }
@@ -136,7 +139,10 @@ func (h *handler) handleBatchForm(w http.ResponseWriter, r *http.Request) {
 		h.renderBatchError(w, pd, err)
 		return
 	}
-	h.audit.record("batch", res...)
+	if err := h.audit.record("batch", res...); err != nil {
+		h.renderBatchError(w, pd, err)
+		return
+	}
 	base := strings.TrimSuffix(path.Base(strings.ReplaceAll(name, `\`, "/")), path.Ext(name))
 	base = strings.Map(func(c rune) rune {
 		if c < 0x80 && (c == '-' || c == '_' || c == '.' || c >= '0' && c <= '9' || c >= 'a' && c <= 'z' || c >= 'A' && c <= 'Z') {
@@ -169,6 +175,8 @@ func (h *handler) renderBatchError(w http.ResponseWriter, pd *pageData, err erro
 	case errors.As(err, &mb):
 		status = http.StatusRequestEntityTooLarge
 		pd.BatchErr = fmt.Sprintf("the file is larger than the limit of %d MB", mb.Limit>>20)
+	case failStatus(err) != 0:
+		status, pd.BatchErr = failStatus(err), err.Error()
 	case errors.As(err, &ie):
 		pd.BatchErr = ie.Msg
 	default:

@@ -4,6 +4,8 @@ import (
 	"bytes"
 	"fmt"
 
+	"gonum.org/v1/plot/vg"
+
 	"growband/curve"
 	"growband/render"
 )
@@ -16,6 +18,26 @@ const chartAges = 121
 // longer trajectories would be cluttered by labels.
 const maxChartLabels = 8
 
+// chartSize is the size a chart is drawn at, its base font size, and
+// whether it carries the caution (the page shows it beside the chart). The
+// SVG is scaled to the width of its box on the page, so the font size on
+// screen is the base size times that width over the drawn width.
+type chartSize struct {
+	width, height, font vg.Length
+	noCaution           bool
+}
+
+// Chart sizes. The API's chart has render's defaults. The page's charts are
+// drawn near the size they are shown at, so that their smallest text (the
+// notes beside a child's points, 0.72 of the base size) stays at least
+// 11 px on screen (1 pt = 4/3 px): the wide chart for a column of 560 px or
+// more, the phone chart for a screen of 390 px less the page's margins.
+var (
+	apiChart   = chartSize{}
+	pageChart  = chartSize{width: 420, height: 300, font: 12, noCaution: true}
+	phoneChart = chartSize{width: 255, height: 230, font: 12, noCaution: true}
+)
+
 // point is one measurement of a child drawn on the chart.
 type point struct {
 	Age, Value, Z float64
@@ -23,7 +45,7 @@ type point struct {
 
 // chartSVG draws the centile chart of one stratum with the child's points
 // (ages inside the stratum's range) as a trajectory, and returns the SVG.
-func chartSVG(r *curve.Reference, st *curve.Stratum, pts []point) ([]byte, error) {
+func chartSVG(r *curve.Reference, st *curve.Stratum, pts []point, size chartSize) ([]byte, error) {
 	ages := make([]float64, chartAges)
 	for i := range ages {
 		ages[i] = st.AgeMin + (st.AgeMax-st.AgeMin)*float64(i)/float64(chartAges-1)
@@ -36,6 +58,9 @@ func chartSVG(r *curve.Reference, st *curve.Stratum, pts []point) ([]byte, error
 	c := &render.Centiles{
 		Measure: r.Measure, Unit: r.Unit, AgeUnit: r.AgeUnit, Stratum: st.Name,
 		Caution: cautionOf(r),
+	}
+	if size.noCaution {
+		c.Caution = ""
 	}
 	for j, tau := range tab.Taus {
 		cv := render.Curve{Centile: roundCentile(100 * tau), Ages: ages, Values: make([]float64, len(ages))}
@@ -61,12 +86,16 @@ func chartSVG(r *curve.Reference, st *curve.Stratum, pts []point) ([]byte, error
 		}
 		c.Children = []render.Child{kid}
 	}
-	fig, err := render.CentileChart(c)
+	var opts []render.Option
+	if size.font > 0 {
+		opts = append(opts, render.WithFontSize(size.font))
+	}
+	fig, err := render.CentileChart(c, opts...)
 	if err != nil {
 		return nil, err
 	}
 	var buf bytes.Buffer
-	if err := render.Write(&buf, fig, "svg", 0, 0); err != nil {
+	if err := render.Write(&buf, fig, "svg", size.width, size.height); err != nil {
 		return nil, err
 	}
 	return buf.Bytes(), nil

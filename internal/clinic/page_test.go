@@ -17,7 +17,7 @@ import (
 )
 
 // zCells finds the z-scores shown in the results table.
-var zCells = regexp.MustCompile(`<td class="num z" data-z>([^<]*)</td>`)
+var zCells = regexp.MustCompile(`<td class="num z" data-z[^>]*>([^<]*)</td>`)
 
 // pageZ reads the shown z-scores back as numbers (the page writes a true
 // minus sign).
@@ -83,11 +83,11 @@ func TestPageScore(t *testing.T) {
 	}
 	dz := fmt.Sprintf("%.2f", want[1]-want[0])
 	dz = strings.Replace(dz, "-", "\u2212", 1)
-	if !strings.Contains(body, `<td class="num">`+dz+`</td>`) {
+	if !strings.Contains(body, `<td class="num" data-label="Change in z">`+dz+`</td>`) {
 		t.Errorf("change in z %s not shown", dz)
 	}
-	if !strings.Contains(body, "<figure class=\"chart\"><svg") {
-		t.Error("no inline chart")
+	if strings.Count(body, "<svg") != 2 || !strings.Contains(body, `<div class="wide"><svg`) || !strings.Contains(body, `<div class="small"><svg`) {
+		t.Error("no inline charts, for wide screens and for phones")
 	}
 	if strings.Contains(body, "<?xml") {
 		t.Error("XML declaration inside the page")
