@@ -12,6 +12,7 @@ import (
 	"strings"
 
 	"growband/curve"
+	"growband/internal/csvsafe"
 	"growband/internal/intake"
 )
 
@@ -114,16 +115,24 @@ var Columns = []string{"z", "centile", "flag"}
 
 // WriteCSV echoes the rows under header with Columns added. A row with
 // fewer cells than the header (one whose quoting could not be read) is
-// padded with empty cells, so that the added columns line up.
+// padded with empty cells, so that the added columns line up. Every cell
+// passes through csvsafe.Cell: a spreadsheet will not run one as a formula,
+// and bytes that are not UTF-8 are replaced.
 func WriteCSV(w io.Writer, header []string, rows []Row) error {
 	cw := csv.NewWriter(w)
-	cw.Write(append(slices.Clone(header), Columns...))
+	safe := func(cells []string) []string {
+		for i, c := range cells {
+			cells[i] = csvsafe.Cell(c)
+		}
+		return cells
+	}
+	cw.Write(safe(append(slices.Clone(header), Columns...)))
 	for _, o := range rows {
 		cells := slices.Clone(o.Fields)
 		for len(cells) < len(header) {
 			cells = append(cells, "")
 		}
-		cw.Write(append(cells, ZText(o.Z), CentileText(o.Centile), o.Flag))
+		cw.Write(safe(append(cells, ZText(o.Z), CentileText(o.Centile), o.Flag)))
 	}
 	cw.Flush()
 	return cw.Error()
