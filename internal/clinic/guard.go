@@ -8,6 +8,7 @@ import (
 	"net/http"
 	"net/url"
 	"os"
+	"slices"
 	"strconv"
 	"strings"
 )
@@ -62,13 +63,14 @@ func (hn hostNames) allows(host string) bool {
 
 // list is the names for messages, loopback names first.
 func (hn hostNames) list() string {
-	names := []string{"localhost", "127.0.0.1", "[::1]"}
+	var more []string
 	for n := range hn {
 		if !isLoopback(n) {
-			names = append(names, n)
+			more = append(more, n)
 		}
 	}
-	return strings.Join(names, ", ")
+	slices.Sort(more)
+	return strings.Join(append([]string{"localhost", "127.0.0.1", "[::1]"}, more...), ", ")
 }
 
 // crossOrigin returns a reason when r changes state (any method but GET,

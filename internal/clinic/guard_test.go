@@ -249,12 +249,13 @@ func TestSlowBody(t *testing.T) {
 		{"/api/v1/score", "application/json"},
 		{"/", "application/x-www-form-urlencoded"},
 		{"/api/v1/batch", "text/csv"},
+		{"/batch", "multipart/form-data; boundary=b"},
 	} {
 		conn, err := net.Dial("tcp", srv.Listener.Addr().String())
 		if err != nil {
 			t.Fatal(err)
 		}
-		fmt.Fprintf(conn, "POST %s HTTP/1.1\r\nHost: %s\r\nContent-Type: %s\r\nContent-Length: 1000\r\n\r\n{\"stratum\":", c.path, srv.Listener.Addr(), c.ctype)
+		fmt.Fprintf(conn, "POST %s HTTP/1.1\r\nHost: %s\r\nContent-Type: %s\r\nContent-Length: 1000\r\n\r\n--b\r\nContent-Disposition: form-data; name=\"file\"; filename=\"a.csv\"\r\n\r\nstratum,", c.path, srv.Listener.Addr(), c.ctype)
 		conn.SetReadDeadline(time.Now().Add(10 * time.Second))
 		resp, err := http.ReadResponse(bufio.NewReader(conn), nil)
 		if err != nil {
