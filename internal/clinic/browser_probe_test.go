@@ -44,7 +44,7 @@ const probeScript = `
     return {top: r.top, bottom: r.bottom, left: r.left, right: r.right, width: r.width, height: r.height};
   }
   function measure() {
-    var out = {vw: window.innerWidth, vh: window.innerHeight, scrollWidth: document.documentElement.scrollWidth,
+    var out = {vw: window.innerWidth, vh: window.innerHeight, scrollWidth: document.documentElement.scrollWidth, scrollY: window.scrollY, url: location.href,
       z: box(document.querySelector("[data-latest-z]")), centile: box(document.querySelector("[data-latest-centile]")),
       charts: 0, minFont: 1e9, texts: 0, printChild: (document.getElementById("print-child") || {}).value};
     document.querySelectorAll(".chart svg").forEach(function (s) {
@@ -95,9 +95,10 @@ const probeScript = `
 // its own idea of the viewport); for that the page's refusal to be framed
 // is lifted in these tests only.
 type probed struct {
-	h    http.Handler
-	mu   sync.Mutex
-	seen []seenRequest
+	h       http.Handler
+	noAppJS bool // leave out the page's own script: the page as without JavaScript
+	mu      sync.Mutex
+	seen    []seenRequest
 }
 
 type seenRequest struct {
@@ -131,6 +132,9 @@ func (p *probed) ServeHTTP(w http.ResponseWriter, r *http.Request) {
 	}
 	if strings.HasPrefix(rec.Header().Get("Content-Type"), "text/html") {
 		b = bytes.Replace(b, []byte("</body>"), []byte(`<script src="/probe.js"></script></body>`), 1)
+		if p.noAppJS {
+			b = bytes.Replace(b, []byte(`<script src="/assets/app.js" defer></script>`), nil, 1)
+		}
 		w.Header().Del("Content-Length")
 		w.Header().Del("X-Frame-Options")
 		w.Header().Set("Content-Security-Policy", strings.Replace(contentPolicy, "frame-ancestors 'none'", "frame-ancestors 'self'", 1))
@@ -148,6 +152,8 @@ func (p *probed) requests() []seenRequest {
 // probeResult is what probeScript measured.
 type probeResult struct {
 	VW, VH, ScrollWidth float64
+	ScrollY             float64
+	URL                 string
 	Z, Centile, Chart   *struct{ Top, Bottom, Left, Right, Width, Height float64 }
 	Charts, Texts       int
 	MinFont             float64
@@ -179,14 +185,16 @@ const minChartPx = 11
 // Score in headless Chromium at a phone's, a laptop's and a desktop's window
 // size: the latest z-score, its centile and the whole chart must be inside
 // the window at once, the page must not scroll sideways, and every chart
-// text must be at least minChartPx high. On the way it types an identifier
-// and a date into the print fields and presses Score again: the server must
-// never receive them. Screenshots (also without JavaScript, from the GET
-// form of the same request) are kept in $CLINIC_SHOTS when set.
+// text must be at least minChartPx high. The page's own script is left out,
+// so this is the page as a browser without JavaScript shows it (only the
+// probe runs, to press the buttons and measure). On the way it types an
+// identifier and a date into the print fields and presses Score again: the
+// server must never receive them. Screenshots of the same result (from the
+// GET form of the request) are kept in $CLINIC_SHOTS when set.
 func TestBrowserResultOnScreen(t *testing.T) {
 	needBrowser(t)
 	h, _ := newTestHandler(t, Options{}, false)
-	p := &probed{h: h}
+	p := &probed{h: h, noAppJS: true}
 	srv := httptest.NewServer(p)
 	defer srv.Close()
 	dir := t.TempDir()
@@ -213,6 +221,11 @@ func TestBrowserResultOnScreen(t *testing.T) {
 			if b == nil || b.Top < 0 || b.Bottom > pr.VH || b.Left < 0 || b.Right > pr.VW || b.Width == 0 {
 				t.Errorf("%s: the %s is not inside the window after Score: %+v", name, what, b)
 			}
+		}
+		// The form posts to /#result: the browser lands on the result, past
+		// the page's header bar.
+		if !strings.HasSuffix(pr.URL, "/#result") || pr.ScrollY <= 0 {
+			t.Errorf("%s: after Score the page is at %s scrolled %g px, want at #result", name, pr.URL, pr.ScrollY)
 		}
 		if pr.ScrollWidth > pr.VW {
 			t.Errorf("%s: the page scrolls sideways: %g px wide in a %g px window", name, pr.ScrollWidth, pr.VW)
