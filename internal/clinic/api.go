@@ -165,14 +165,15 @@ func decodeScoreBody(body io.Reader) (items []*measurement, list bool, err error
 		}
 		return nil, false, fieldErr(bodyField, "%v", err)
 	}
-	if json.Valid(raw) {
+	valid := json.Valid(raw)
+	if valid {
 		if key, dup := duplicateKey(raw); dup {
 			return nil, false, fieldErr(key, "given twice (keys are matched without regard to case); give each field once")
 		}
 	}
 	// The common request, one well-formed object, is decoded once; anything
 	// else takes the slower path that names what is wrong.
-	if t := bytes.TrimSpace(raw); len(t) > 0 && t[0] == '{' && json.Valid(t) {
+	if t := bytes.TrimSpace(raw); valid && len(t) > 0 && t[0] == '{' {
 		m, err := decodeItem(t, "")
 		if err != nil {
 			return nil, false, err

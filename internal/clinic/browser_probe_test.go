@@ -47,6 +47,12 @@ const probeScript = `
     var out = {vw: window.innerWidth, vh: window.innerHeight, scrollWidth: document.documentElement.scrollWidth, scrollY: window.scrollY, url: location.href,
       z: box(document.querySelector("[data-latest-z]")), centile: box(document.querySelector("[data-latest-centile]")),
       charts: 0, minFont: 1e9, texts: 0, printChild: (document.getElementById("print-child") || {}).value};
+    out.overflow = [];
+    document.querySelectorAll("body *").forEach(function (el) {
+      if (out.overflow.length < 5 && el.getBoundingClientRect().right > window.innerWidth + 0.5 && !el.closest("svg")) {
+        out.overflow.push(el.tagName.toLowerCase() + "." + el.className + " " + (el.textContent || "").slice(0, 40));
+      }
+    });
     document.querySelectorAll(".chart svg").forEach(function (s) {
       var b = s.getBoundingClientRect();
       if (b.width === 0) { return; }
@@ -158,6 +164,7 @@ type probeResult struct {
 	Charts, Texts       int
 	MinFont             float64
 	MinText, PrintChild string
+	Overflow            []string // elements that reach past the window's right edge
 }
 
 var probeRE = regexp.MustCompile(`<pre id="probe">([^<]*)</pre>`)
@@ -183,7 +190,7 @@ const minChartPx = 11
 
 // TestBrowserResultOnScreen scores a child by filling the form and pressing
 // Score in headless Chromium at a phone's, a laptop's and a desktop's window
-// size: the latest z-score, its centile and the whole chart must be inside
+// size, and two more: the latest z-score, its centile and the whole chart must be inside
 // the window at once, the page must not scroll sideways, and every chart
 // text must be at least minChartPx high. The page's own script is left out,
 // so this is the page as a browser without JavaScript shows it (only the
@@ -199,7 +206,9 @@ func TestBrowserResultOnScreen(t *testing.T) {
 	defer srv.Close()
 	dir := t.TempDir()
 	getForm := url.Values{"ref": {"weight"}, "stratum": {"F"}, "age": {"2.5", "7"}, "value": {"4.6", "6.3"}, "measured": {"", ""}}
-	for _, size := range [][2]int{{390, 844}, {1366, 768}, {1920, 1080}} {
+	// A phone, a laptop and a desktop (issue 14), and a small phone and a
+	// tablet on either side of the switch between the two charts.
+	for _, size := range [][2]int{{390, 844}, {1366, 768}, {1920, 1080}, {326, 640}, {608, 900}} {
 		name := fmt.Sprintf("%dx%d", size[0], size[1])
 		harness := func(src string) string {
 			return srv.URL + "/harness?" + url.Values{"w": {fmt.Sprint(size[0])}, "h": {fmt.Sprint(size[1])}, "src": {src}}.Encode()
@@ -228,7 +237,7 @@ func TestBrowserResultOnScreen(t *testing.T) {
 			t.Errorf("%s: after Score the page is at %s scrolled %g px, want at #result", name, pr.URL, pr.ScrollY)
 		}
 		if pr.ScrollWidth > pr.VW {
-			t.Errorf("%s: the page scrolls sideways: %g px wide in a %g px window", name, pr.ScrollWidth, pr.VW)
+			t.Errorf("%s: the page scrolls sideways: %g px wide in a %g px window; %q", name, pr.ScrollWidth, pr.VW, pr.Overflow)
 		}
 		if pr.Charts != 1 || pr.Texts < 10 || pr.MinFont < minChartPx {
 			t.Errorf("%s: %d charts shown, %d texts, smallest %.1f px (%q); want one chart, text >= %d px", name, pr.Charts, pr.Texts, pr.MinFont, pr.MinText, minChartPx)
@@ -253,7 +262,7 @@ func TestBrowserResultOnScreen(t *testing.T) {
 			}
 		}
 	}
-	if posts != 6 {
+	if posts != 10 {
 		t.Errorf("%d form posts, want 2 per window size", posts)
 	}
 }

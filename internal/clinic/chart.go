@@ -30,12 +30,14 @@ type chartSize struct {
 // Chart sizes. The API's chart has render's defaults. The page's charts are
 // drawn near the size they are shown at, so that their smallest text (the
 // notes beside a child's points, 0.72 of the base size) stays at least
-// 11 px on screen (1 pt = 4/3 px): the wide chart for a column of 560 px or
-// more, the phone chart for a screen of 390 px less the page's margins.
+// 11 px on screen: the wide chart is shown from a window of 38rem (608 px)
+// up, in a box at least 536 px wide (536/420 * 0.72 * 13 = 11.9 px); the
+// phone chart below that, in a box at least 280 px wide from a window of
+// 326 px (280/235 * 0.72 * 13 = 11.2 px). style.css holds the breakpoint.
 var (
 	apiChart   = chartSize{}
-	pageChart  = chartSize{width: 420, height: 300, font: 12, noCaution: true}
-	phoneChart = chartSize{width: 255, height: 230, font: 12, noCaution: true}
+	pageChart  = chartSize{width: 420, height: 300, font: 13, noCaution: true}
+	phoneChart = chartSize{width: 235, height: 225, font: 13, noCaution: true}
 )
 
 // point is one measurement of a child drawn on the chart.

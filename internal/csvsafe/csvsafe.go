@@ -45,22 +45,22 @@ func Cell(s string) string {
 // digits with at most one decimal point or comma, and an optional exponent.
 func isNumber(s string) bool {
 	i := 0
-	if i < len(s) && (s[i] == '+' || s[i] == '-') {
+	if s != "" && (s[0] == '+' || s[0] == '-') {
 		i++
 	}
 	digits, sep := 0, false
 	for ; i < len(s); i++ {
 		c := s[i]
-		switch {
-		case c >= '0' && c <= '9':
+		if c >= '0' && c <= '9' {
 			digits++
-		case (c == '.' || c == ',') && !sep:
-			sep = true
-		default:
-			goto exp
+			continue
 		}
+		if (c == '.' || c == ',') && !sep {
+			sep = true
+			continue
+		}
+		break
 	}
-exp:
 	if digits == 0 {
 		return false
 	}
@@ -70,15 +70,15 @@ exp:
 	if s[i] != 'e' && s[i] != 'E' {
 		return false
 	}
-	i++
-	if i < len(s) && (s[i] == '+' || s[i] == '-') {
-		i++
+	exp := s[i+1:]
+	if exp != "" && (exp[0] == '+' || exp[0] == '-') {
+		exp = exp[1:]
 	}
-	if i == len(s) {
+	if exp == "" {
 		return false
 	}
-	for ; i < len(s); i++ {
-		if s[i] < '0' || s[i] > '9' {
+	for j := 0; j < len(exp); j++ {
+		if exp[j] < '0' || exp[j] > '9' {
 			return false
 		}
 	}
