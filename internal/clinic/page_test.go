@@ -289,6 +289,14 @@ func TestPageResultFirst(t *testing.T) {
 	if !strings.Contains(body, `<form method="post" action="/#result" id="child-form"`) {
 		t.Error("the child form does not post to #result")
 	}
+	if strings.Count(body, `id="result"`) != 1 {
+		t.Error(`id="result" given twice`)
+	}
+	// With errors and no result, #result is the form with its notes.
+	bad := postForm(t, h, url.Values{"stratum": {"F"}, "age": {"7"}, "value": {"6..3"}}).Body.String()
+	if strings.Count(bad, `id="result"`) != 1 || !strings.Contains(bad, `<section class="card child" aria-labelledby="child-h" id="result">`) {
+		t.Error("a form with errors is not the #result target")
+	}
 	// z = (6.3 - (3.4 + 0.35*7))/0.8 = 0.5625 by the hand reference (exact
 	// identity); its centile Phi(0.5625) = 71.3 (from memory).
 	if plain := html.UnescapeString(body); !strings.Contains(plain, `data-latest-z>+0.56<`) || !strings.Contains(plain, `data-latest-centile>71.3<`) {
