@@ -19,7 +19,8 @@ import (
 // is done, then shuts down gracefully: requests in progress get up to 10 s to
 // finish. It refuses a non-loopback address unless opt.AllowRemote is set,
 // and warns on opt.Log when it is. Requests must name in their Host header a
-// loopback name, the listening address or one of opt.Hosts (see NewHandler).
+// loopback name, the listening address (any address of this machine when
+// listening on all interfaces) or one of opt.Hosts (see NewHandler).
 // Errors wrap ErrReferences (no reference, one that cannot be loaded, two
 // with the same name), ErrRemote or ErrAddr; a nil error means a clean
 // shutdown.
@@ -45,8 +46,8 @@ func Serve(ctx context.Context, opt Options) error {
 		fmt.Fprintf(lg, "growband: warning: listening on %s, reachable from other machines: "+
 			"the page has no login and no encryption; use it only on a trusted network\n", addr)
 		if len(opt.Hosts) == 0 {
-			fmt.Fprintf(lg, "growband: other machines must reach the server by the address %s itself: "+
-				"no host name was given for them\n", host)
+			fmt.Fprintf(lg, "growband: other machines must address the server by an IP address: "+
+				"no host name was given for them\n")
 		}
 	}
 	ln, err := net.Listen("tcp", addr)
@@ -54,6 +55,11 @@ func Serve(ctx context.Context, opt Options) error {
 		return fmt.Errorf("%w: %v", ErrAddr, err)
 	}
 	opt.Hosts = append(slices.Clone(opt.Hosts), ln.Addr().String())
+	if ip := net.ParseIP(host); host == "" || ip != nil && ip.IsUnspecified() {
+		// Listening on every interface: each of this machine's addresses
+		// names it. An address, unlike a name, cannot be rebound.
+		opt.Hosts = append(opt.Hosts, interfaceAddrs()...)
+	}
 	opt.files = opt.Refs
 	srv := &http.Server{
 		Handler:           NewHandler(refs, names, opt),
@@ -80,6 +86,21 @@ func Serve(ctx context.Context, opt Options) error {
 	}
 	fmt.Fprintln(lg, "growband: stopped")
 	return err
+}
+
+// interfaceAddrs lists the IP addresses of this machine's interfaces.
+func interfaceAddrs() []string {
+	addrs, err := net.InterfaceAddrs()
+	if err != nil {
+		return nil
+	}
+	var out []string
+	for _, a := range addrs {
+		if n, ok := a.(*net.IPNet); ok {
+			out = append(out, n.IP.String())
+		}
+	}
+	return out
 }
 
 // isLoopback reports whether host names only this machine. An empty host

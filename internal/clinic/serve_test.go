@@ -5,6 +5,7 @@ import (
 	"context"
 	"errors"
 	"io"
+	"net"
 	"net/http"
 	"os"
 	"path/filepath"
@@ -143,7 +144,29 @@ func TestServeAllowRemote(t *testing.T) {
 	go func() {
 		done <- Serve(ctx, Options{Refs: []string{p}, Addr: "0.0.0.0:0", AllowRemote: true, Log: &log})
 	}()
-	waitURL(t, &log, done)
+	base := waitURL(t, &log, done)
+	// Listening on all interfaces, the server answers to each of this
+	// machine's addresses, and to no other name.
+	_, port, _ := net.SplitHostPort(strings.TrimSuffix(strings.TrimPrefix(base, "http://"), "/"))
+	hosts := map[string]int{"rebind.example:" + port: http.StatusMisdirectedRequest}
+	for _, a := range interfaceAddrs() {
+		hosts[net.JoinHostPort(a, port)] = http.StatusOK
+	}
+	for host, want := range hosts {
+		req, err := http.NewRequest(http.MethodGet, "http://127.0.0.1:"+port+"/healthz", nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		req.Host = host
+		resp, err := http.DefaultClient.Do(req)
+		if err != nil {
+			t.Fatal(err)
+		}
+		resp.Body.Close()
+		if resp.StatusCode != want {
+			t.Errorf("Host %s: status %d, want %d", host, resp.StatusCode, want)
+		}
+	}
 	cancel()
 	if err := <-done; err != nil {
 		t.Error(err)
