@@ -35,7 +35,11 @@ func duplicateKey(raw []byte) (string, bool) {
 				if b.Len() > 0 {
 					b.WriteByte('.')
 				}
-				b.WriteString(f.key)
+				if f.key == "" {
+					b.WriteString(`""`) // the empty key, named so
+				} else {
+					b.WriteString(f.key)
+				}
 			} else {
 				b.WriteString("[" + strconv.Itoa(f.idx) + "]")
 			}
