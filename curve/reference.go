@@ -66,6 +66,9 @@ type Stratum struct {
 	// LoadLMSTable): the centiles come from the tabulated L, M and S, Knots
 	// and Coef are empty, and Taus equals Chart.
 	LMS *LMSCurve `json:"lms,omitempty"`
+	// Conditional, when not nil, is the model of growth since the previous
+	// visit (see FitConditional).
+	Conditional *Conditional `json:"conditional,omitempty"`
 
 	// checked records that Reference.ready validated an LMS stratum.
 	checked bool `json:"-"`
