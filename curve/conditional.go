@@ -261,35 +261,29 @@ func consecutiveGaps(d *Data, idx []int) []float64 {
 	return g
 }
 
-// pairsOf scores the visits idx of the stratum and pairs each with the
-// previous visit of the same subject when the gap is in [lo, hi].
+// pairsOf scores the visits idx of the stratum (sorted by visitsOf) and
+// pairs each with its previous visit (see previousVisit), skipping visits
+// that score beyond ±ImplausibleZ or cannot be scored.
 func (r *Reference) pairsOf(st *Stratum, d *Data, idx []int, lo, hi float64) ([]condPair, error) {
-	var pairs []condPair
-	child, last := -1, ""
-	var ws scoreSpace
 	b, err := spline.New(st.Knots, r.Degree)
 	if err != nil {
 		return nil, fmt.Errorf("%w: stratum %q: %w", ErrInvalid, st.Name, err)
 	}
-	z := func(i int) (float64, bool) {
+	var ws scoreSpace
+	z := make([]float64, len(idx))
+	ok := make([]bool, len(idx))
+	for k, i := range idx {
 		sc, err := ws.score(r, st, b, d.Age[i], d.Value[i])
-		if err != nil || math.Abs(sc.Z) > ImplausibleZ {
-			return 0, false
-		}
-		return sc.Z, true
+		z[k], ok[k] = sc.Z, err == nil && math.Abs(sc.Z) <= ImplausibleZ
 	}
-	for k := 1; k < len(idx); k++ {
-		i, j := idx[k-1], idx[k]
-		if d.Subject[i] != d.Subject[j] || d.Subject[j] == "" {
+	var pairs []condPair
+	child, last := -1, ""
+	for k, j := range idx {
+		if !ok[k] {
 			continue
 		}
-		gap := d.Age[j] - d.Age[i]
-		if !(gap >= lo && gap <= hi) {
-			continue
-		}
-		zs, ok1 := z(i)
-		zt, ok2 := z(j)
-		if !ok1 || !ok2 {
+		m, _ := previousVisit(d, idx, ok, k, lo, hi)
+		if m < 0 {
 			continue
 		}
 		if len(pairs) == 0 || d.Subject[j] != last {
@@ -300,9 +294,133 @@ func (r *Reference) pairsOf(st *Stratum, d *Data, idx []int, lo, hi float64) ([]
 		if d.Weight != nil {
 			w = d.Weight[j]
 		}
-		pairs = append(pairs, condPair{t: d.Age[j], zs: zs, gap: gap, zt: zt, w: w, child: child})
+		pairs = append(pairs, condPair{t: d.Age[j], zs: z[m], gap: d.Age[j] - d.Age[idx[m]], zt: z[k], w: w, child: child})
 	}
 	return pairs, nil
+}
+
+// previousVisit returns the position m < k in idx (rows sorted by subject,
+// then age) of the previous visit of row idx[k]: the most recent earlier
+// visit of the same subject with ok[m] whose gap to it lies in [lo, hi].
+// When there is none it returns -1 and, if the subject has earlier usable
+// visits at all, the gap to the latest of them (else NaN).
+func previousVisit(d *Data, idx []int, ok []bool, k int, lo, hi float64) (int, float64) {
+	j := idx[k]
+	latest := math.NaN()
+	if d.Subject[j] == "" {
+		return -1, latest
+	}
+	for m := k - 1; m >= 0 && d.Subject[idx[m]] == d.Subject[j]; m-- {
+		gap := d.Age[j] - d.Age[idx[m]]
+		if !ok[m] || !(gap > 0) {
+			continue
+		}
+		if math.IsNaN(latest) {
+			latest = gap
+		}
+		if gap > hi {
+			break
+		}
+		if gap >= lo {
+			return m, gap
+		}
+	}
+	return -1, latest
+}
+
+// ErrNoPrevious: a visit with no earlier visit of the same child to
+// compare with.
+var ErrNoPrevious = errors.New("curve: no earlier visit of the same child")
+
+// ChangeScore is the conditional score of one visit (see ScoreChanges).
+type ChangeScore struct {
+	Score
+	Prev int   // row of the previous visit used; -1 when not scored
+	Err  error // why the visit has no conditional score; nil when scored
+}
+
+// ScoreChanges gives every row of d (which needs Subject) its conditional
+// z-score and centile against the previous visit of the same subject in
+// the same stratum: the most recent earlier visit that can be scored and
+// whose gap lies in the stratum's modelled range (ScoreChange). A row
+// without one has Err wrapping ErrNoPrevious (no earlier visit), ErrGapRange
+// (earlier visits, none at a modelled gap), ErrNoConditional, or the error
+// of its own or the previous visit's scoring. Rows are independent: one
+// row's error does not stop the others. Mismatched column lengths panic.
+func (r *Reference) ScoreChanges(d *Data) []ChangeScore {
+	n := len(d.Age)
+	if len(d.Value) != n || len(d.Subject) != n || d.Stratum != nil && len(d.Stratum) != n {
+		panic("curve: ScoreChanges: columns of different lengths")
+	}
+	out := make([]ChangeScore, n)
+	for i := range out {
+		out[i].Prev = -1
+	}
+	byStratum := map[string][]int{}
+	for i := range n {
+		s := ""
+		if d.Stratum != nil {
+			s = d.Stratum[i]
+		}
+		byStratum[s] = append(byStratum[s], i)
+	}
+	for name, rows := range byStratum {
+		st, b, err := r.lookup(name)
+		if err == nil && st.Conditional == nil {
+			err = fmt.Errorf("%w: stratum %q", ErrNoConditional, st.Name)
+		}
+		if err != nil {
+			for _, i := range rows {
+				out[i].Err = err
+			}
+			continue
+		}
+		c := st.Conditional
+		sub := &Data{Age: d.Age, Subject: d.Subject}
+		idx := slices.Clone(rows)
+		slices.SortStableFunc(idx, func(i, j int) int {
+			return cmp.Or(cmp.Compare(d.Subject[i], d.Subject[j]), cmp.Compare(d.Age[i], d.Age[j]))
+		})
+		var ws scoreSpace
+		z := make([]float64, len(idx))
+		ok := make([]bool, len(idx))
+		errs := make([]error, len(idx))
+		for k, i := range idx {
+			sc, err := ws.score(r, st, b, d.Age[i], d.Value[i])
+			z[k], ok[k], errs[k] = sc.Z, err == nil, err
+		}
+		var q []float64
+		for k, i := range idx {
+			if !ok[k] {
+				out[i].Err = errs[k]
+				continue
+			}
+			m, latest := previousVisit(sub, idx, ok, k, c.GapMin, c.GapMax)
+			if m < 0 {
+				if math.IsNaN(latest) {
+					out[i].Err = ErrNoPrevious
+				} else {
+					out[i].Err = fmt.Errorf("%w: gap %.4g not in [%.4g, %.4g]", ErrGapRange, latest, c.GapMin, c.GapMax)
+				}
+				continue
+			}
+			gap := d.Age[i] - d.Age[idx[m]]
+			if q, err = c.Quantiles(q, r.AgeScale, d.Age[i], gap, z[m]); err != nil {
+				out[i].Err = err
+				continue
+			}
+			cz, flags, err := place(c.Taus, q, z[k])
+			if err != nil {
+				out[i].Err = err
+				continue
+			}
+			if math.Abs(cz) > ImplausibleZ {
+				flags |= FlagImplausible
+			}
+			out[i] = ChangeScore{Score: Score{Centile: 100 * normP(cz), Z: cz, Flags: flags}, Prev: idx[m]}
+		}
+	}
+	return out
 }
 
 // condBasis holds the two bases of a conditional model.

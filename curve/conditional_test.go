@@ -197,3 +197,43 @@ func TestConditionalFileAndErrors(t *testing.T) {
 		t.Errorf("unordered coefficients: got %v, want ErrInvalid", err)
 	}
 }
+
+// TestScoreChanges checks the pairing rules of ScoreChanges against
+// ScoreChange on shuffled rows: the previous visit is the most recent
+// earlier one at a modelled gap, a first visit has ErrNoPrevious, and a
+// child whose only earlier visit is too far back has ErrGapRange.
+func TestScoreChanges(t *testing.T) {
+	var truth arTruth
+	d, _ := truth.children(600, 4)
+	ref, err := Fit(d, &Settings{Knots: 2, Penalty: PenaltyNone})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := FitConditional(ref, d, &ConditionalSettings{GapMin: arGapLo, GapMax: arGapHi, AgeKnots: 1, ZKnots: 1}); err != nil {
+		t.Fatal(err)
+	}
+	// Three children: visits in shuffled order; "far" has a gap of 3 years.
+	v := func(a, z float64) float64 { return truth.value(a, z) }
+	rows := &Data{
+		Age:     []float64{6.5, 5, 9, 5.5, 12, 9},
+		Value:   []float64{v(6.5, 0.2), v(5, 0), v(9, 1), v(5.5, 0.1), v(12, 1), v(9, -1)},
+		Subject: []string{"a", "a", "far", "a", "far", "solo"},
+	}
+	got := ref.ScoreChanges(rows)
+	// Row 0 (a at 6.5): previous visits at 5.5 (gap 1) and 5 (gap 1.5 >
+	// arGapHi): 5.5 is used. Row 3 (a at 5.5): 5 (gap 0.5).
+	for _, c := range []struct{ row, prev int }{{0, 3}, {3, 1}} {
+		want, err := ref.ScoreChange("", rows.Age[c.prev], rows.Value[c.prev], rows.Age[c.row], rows.Value[c.row])
+		if err != nil {
+			t.Fatal(err)
+		}
+		if g := got[c.row]; g.Err != nil || g.Prev != c.prev || g.Z != want.Z {
+			t.Errorf("row %d: got %+v, want previous row %d and z %g", c.row, g, c.prev, want.Z)
+		}
+	}
+	for row, want := range map[int]error{1: ErrNoPrevious, 2: ErrNoPrevious, 5: ErrNoPrevious, 4: ErrGapRange} {
+		if !errors.Is(got[row].Err, want) || !math.IsNaN(got[row].Z) && got[row].Z != 0 {
+			t.Errorf("row %d: got %+v, want %v", row, got[row], want)
+		}
+	}
+}

@@ -19,6 +19,8 @@ type Plan struct {
 	Plausible Plausible
 	Table     AgeGrid
 	Output    Output
+
+	Conditional *Conditional // nil when the plan has no [conditional] table
 }
 
 // Input is the [input] table: where the data are and how to read them.

@@ -108,6 +108,7 @@ func (d *planDecoder) plan(rp *rawPlan) *Plan {
 	p.Plausible = d.plausible(rp, &p.Measure)
 	p.Table = d.grid(rp)
 	p.Output = d.output(rp)
+	p.Conditional = d.conditional(&rp.Conditional, d.hasConditional, in)
 	return p
 }
 
