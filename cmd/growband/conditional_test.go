@@ -1,6 +1,7 @@
 package main
 
 import (
+	"math"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -61,10 +62,43 @@ func TestBuildAndScoreConditional(t *testing.T) {
 	if scored == 0 || first == 0 {
 		t.Errorf("%d conditional scores, %d first visits", scored, first)
 	}
+	// compare reports growth faltering and, with --vs, the centile
+	// differences (here of the file with itself: zero at every centile).
+	mustGB(t, dir, "compare", "--ref", "out/reference.json", "--in", "data.csv", "--vs", "data.csv",
+		"--subject-column", "child", "--stratum-column", "sex", "--stratum-codes", "F=female,M=male,1=male,2=female", "--out", "cmp")
+	for _, name := range []string{"growth.csv", "centile-diff.csv", "centile-diff-female.svg", "centile-diff-male.svg"} {
+		if _, err := os.Stat(filepath.Join(dir, "cmp", name)); err != nil {
+			t.Errorf("compare --out: %v", err)
+		}
+	}
+	head, rows = readCSV(t, readFile(t, filepath.Join(dir, "cmp", "centile-diff.csv")))
+	if len(rows) != 14 || head[4] != "diff" {
+		t.Fatalf("centile-diff.csv: %v, %d rows", head, len(rows))
+	}
+	for _, r := range rows {
+		// Every row appears twice, so 0 is an optimal difference; 1e-9 kg
+		// allows the rounding of the vertex's linear solve (common practice).
+		if d, err := strconv.ParseFloat(r[4], 64); err != nil || math.Abs(d) > 1e-9 || !strings.Contains(r[9], "bootstrap over subjects") {
+			t.Errorf("centile-diff.csv row %v: a cohort against itself differs", r)
+		}
+	}
+	head, rows = readCSV(t, readFile(t, filepath.Join(dir, "cmp", "growth.csv")))
+	if len(rows) != 3 || rows[2][0] != "overall" {
+		t.Errorf("growth.csv: %v %v", head, rows)
+	}
 	// Without a conditional model the flag is refused with a clear message.
 	_, errOut, code := gb(t, dir, "score", "--ref", f.ref(), "--in", "data.csv", "--subject-column", "child",
 		"--stratum-column", "sex", "--stratum-codes", "F=female,M=male,1=male,2=female")
 	if code != 1 || !strings.Contains(errOut, "no conditional model") {
 		t.Errorf("score against a reference without the model: exit %d, %s", code, errOut)
 	}
+}
+
+func readFile(t *testing.T, path string) string {
+	t.Helper()
+	b, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return string(b)
 }

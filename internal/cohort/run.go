@@ -36,8 +36,17 @@ intervals are cluster-robust (sandwich variance over subjects) and the
 Wilson intervals use the Kish effective n = n/deff. With --weight-column the
 estimates are weighted. The output says which was done.
 
+With --subject-column and a reference that has a conditional model (a plan
+with a [conditional] table), the share of later visits below the 5th
+conditional centile given the child's previous visit (growth faltering) is
+reported with Wilson intervals clustered by child (growth.csv with --out).
+
 --vs adds a second cohort and the differences (cohort minus --vs) in mean z
-and in the shares with their intervals. --against-ref B places reference B's
+and in the shares with their intervals, and compares the two cohorts at
+every chart centile, adjusted for age (a quantile regression on B-splines
+in age and a cohort indicator; intervals by the bootstrap over children
+with --subject-column, else the Hall-Sheather sandwich; centile-diff.csv
+and the chart centile-diff-STRATUM.svg with --out). --against-ref B places reference B's
 centiles in the reference's z units.
 
 Without --out the summary table goes to stdout. With --out DIR, the files
@@ -152,8 +161,10 @@ func RunCompare(args []string, stdout, stderr io.Writer) error {
 		Differences []Diff         `json:"differences,omitempty"`
 		AgainstRef  *RefDiff       `json:"against_ref,omitempty"`
 		Unscored    []unscoredLine `json:"unscored"`
+		*growthDoc
 	}{}
 	var tb *intake.Table
+	var db *curve.Data
 	if *vs == "" {
 		r, err := Compare(ref, da, opt)
 		if err != nil {
@@ -161,7 +172,6 @@ func RunCompare(args []string, stdout, stderr io.Writer) error {
 		}
 		doc.Cohorts = []*Result{r}
 	} else {
-		var db *curve.Data
 		if tb, db, err = readCohort(*vs, ref, spec, stderr); err != nil {
 			return err
 		}
@@ -171,6 +181,9 @@ func RunCompare(args []string, stdout, stderr io.Writer) error {
 		}
 		doc.Cohorts = []*Result{two.A, two.B}
 		doc.Method, doc.Differences = two.Method, two.Diffs
+	}
+	if doc.growthDoc, err = growth(ref, da, db, *level); err != nil {
+		return err
 	}
 	doc.Unscored = unscoredLines(ta, doc.Cohorts[0])
 	if tb != nil {
@@ -196,7 +209,10 @@ func RunCompare(args []string, stdout, stderr io.Writer) error {
 		if *format == "json" {
 			return writeJSON(stdout, doc)
 		}
-		return writeSummary(stdout, doc.Cohorts)
+		if err := writeSummary(stdout, doc.Cohorts); err != nil {
+			return err
+		}
+		return doc.growthDoc.writeText(stdout)
 	}
 	if err := os.MkdirAll(*out, 0o755); err != nil {
 		return err
@@ -278,6 +294,11 @@ func RunCompare(args []string, stdout, stderr io.Writer) error {
 			}
 			written = append(written, p)
 		}
+	}
+	ws, err := doc.growthDoc.writeFiles(*out, ref, doc.Cohorts[0].Cohort, doc.Cohorts[len(doc.Cohorts)-1].Cohort)
+	written = append(written, ws...)
+	if err != nil {
+		return err
 	}
 	if *ownFit {
 		for _, st := range ref.Strata {
