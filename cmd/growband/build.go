@@ -135,6 +135,9 @@ func build(plan *intake.Plan, dir string, prog progress) (*built, error) {
 	if err := b.writeFiles(prog); err != nil {
 		return nil, err
 	}
+	if err := b.fitCovariates(prog); err != nil {
+		return nil, err
+	}
 	return b, nil
 }
 

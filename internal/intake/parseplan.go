@@ -38,6 +38,7 @@ type rawPlan struct {
 	Output    rawOutput    `toml:"output"`
 
 	Conditional rawConditional `toml:"conditional"`
+	Covariates  rawCovariates  `toml:"covariates"`
 }
 
 type rawInput struct {
@@ -131,6 +132,7 @@ func ParsePlan(data []byte, name, dir string) (*Plan, error) {
 	}
 	d := &planDecoder{name: name, lines: keyLines(text)}
 	_, d.hasConditional = tree["conditional"]
+	_, d.hasCovariates = tree["covariates"]
 	for tn, v := range tree {
 		if _, isTable := v.(map[string]any); planKeys[tn] && !isTable {
 			d.fail(tn, ErrType, "%s must be a table like [%s], not %s", tn, tn, describe(v))
@@ -172,6 +174,7 @@ type planDecoder struct {
 	errs  []*Error
 
 	hasConditional bool // the plan has a [conditional] table
+	hasCovariates  bool // the plan has a [covariates] table
 }
 
 func (d *planDecoder) fail(key string, sentinel error, format string, args ...any) {

@@ -39,3 +39,30 @@ func TestPlanConditional(t *testing.T) {
 		}
 	}
 }
+
+func TestPlanCovariates(t *testing.T) {
+	if p := parse(t, minimalPlan); p.Covariates != nil {
+		t.Errorf("no [covariates] table: got %+v", p.Covariates)
+	}
+	p := parse(t, minimalPlan+"[covariates]\nnumeric = [\"mother_height\"]\ncategorical = [\"region\"]\nmethod = \"bootstrap\"\nreplicates = 50\n")
+	c := p.Covariates
+	if c == nil || !slices.Equal(c.Numeric, []string{"mother_height"}) || !slices.Equal(c.Categorical, []string{"region"}) ||
+		c.Method != "bootstrap" || c.Replicates != 50 || c.AgeKnots != 0 {
+		t.Errorf("[covariates] read as %+v", c)
+	}
+	if c := parse(t, minimalPlan+"[covariates]\nnumeric = [\"h\"]\n").Covariates; c.Method != "sandwich" {
+		t.Errorf("default method %q", c.Method)
+	}
+	for _, tc := range []struct{ text, want string }{
+		{minimalPlan + "[covariates]\n", "plan.toml:6: covariates: name at least one column"},
+		{minimalPlan + "[covariates]\nnumeric = [\"age_months\"]\n", `plan.toml:7: covariates.numeric: column "age_months" is already used`},
+		{minimalPlan + "[covariates]\nnumeric = [\"h\"]\ncategorical = [\"h\"]\n", `plan.toml:8: covariates.categorical: column "h" named twice`},
+		{minimalPlan + "[covariates]\nnumeric = [\"h\"]\nmethod = \"jackknife\"\n", `plan.toml:8: covariates.method: "jackknife" is not one of`},
+		{minimalPlan + "[covariates]\nnumeric = \"h\"\n", "plan.toml:7: covariates.numeric: want an array of strings"},
+	} {
+		_, err := ParsePlan([]byte(tc.text), "plan.toml", "/data")
+		if err == nil || !strings.Contains(err.Error(), tc.want) {
+			t.Errorf("%q: got %v, want %q", tc.text, err, tc.want)
+		}
+	}
+}
