@@ -646,3 +646,46 @@ func (c *Conditional) Quantiles(dst []float64, scale AgeScale, age, gap, zs floa
 	}
 	return dst, nil
 }
+
+// NextCentiles returns, for a child of the stratum measured prevValue at
+// prevAge, the conditional centiles in measurement units of its measurement
+// after gap, one per tau of taus (each must be in the conditional model's
+// grid): Q_ref(prevAge+gap, Phi(Q_tau(z_t | ...))), by the equivariance
+// stated on FitConditional. A centile whose level Phi(.) falls outside the
+// ordinary reference's tau grid is NaN (references are not extrapolated).
+// Errors are those of ScoreChange, and ErrTauRange for a tau not in the grid.
+func (r *Reference) NextCentiles(stratum string, prevAge, prevValue, gap float64, taus []float64) ([]float64, error) {
+	st, _, err := r.lookup(stratum)
+	if err != nil {
+		return nil, err
+	}
+	c := st.Conditional
+	if c == nil {
+		return nil, fmt.Errorf("%w: stratum %q", ErrNoConditional, st.Name)
+	}
+	prev, err := r.Score(stratum, prevAge, prevValue)
+	if err != nil {
+		return nil, fmt.Errorf("previous visit: %w", err)
+	}
+	age := prevAge + gap
+	q, err := c.Quantiles(nil, r.AgeScale, age, gap, prev.Z)
+	if err != nil {
+		return nil, err
+	}
+	out := make([]float64, len(taus))
+	for i, tau := range taus {
+		k := gridIndex(c.Taus, tau)
+		if k < 0 {
+			return nil, fmt.Errorf("%w: %g is not a conditional centile of the model", ErrTauRange, 100*tau)
+		}
+		v, err := r.Quantile(stratum, age, normP(q[k]))
+		switch {
+		case errors.Is(err, ErrTauRange):
+			v = math.NaN()
+		case err != nil:
+			return nil, err
+		}
+		out[i] = v
+	}
+	return out, nil
+}

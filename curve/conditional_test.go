@@ -128,6 +128,34 @@ func TestConditionalRecoversAR(t *testing.T) {
 	if math.Abs(mean) > calTol || math.Abs(sd-1) > calTol {
 		t.Errorf("conditional z mean %.4f, SD %.4f: not calibrated within %v", mean, sd, calTol)
 	}
+
+	// The conditional centiles in measurement units (NextCentiles) against
+	// the truth: the next value of a child at z_s is value(age, rho z_s +
+	// sqrt(1-rho^2) Phi^-1(tau)). The error, in true conditional z units,
+	// must stay within a quarter of a conditional SD (common practice for a
+	// chart's worst point).
+	const maxCentileErr = 0.25
+	taus := []float64{0.05, 0.25, 0.5, 0.75, 0.95}
+	worst := 0.0
+	for _, age := range []float64{4, 8, 12} {
+		for _, gap := range []float64{0.5, 1} {
+			for _, zs := range []float64{-1.5, 0, 1.5} {
+				next, err := ref.NextCentiles("", age, truth.value(age, zs), gap, taus)
+				if err != nil {
+					t.Fatal(err)
+				}
+				rho := truth.rho(gap)
+				for k, tau := range taus {
+					e := (truth.z(age+gap, next[k]) - rho*zs) / math.Sqrt(1-rho*rho)
+					worst = max(worst, math.Abs(e-normZ(tau)))
+				}
+			}
+		}
+	}
+	t.Logf("conditional centiles: worst error %.3f conditional SD", worst)
+	if worst > maxCentileErr {
+		t.Errorf("conditional centiles: worst error %.3f conditional SD, above %v", worst, maxCentileErr)
+	}
 }
 
 // TestConditionalFileAndErrors checks that the conditional model survives

@@ -138,6 +138,9 @@ func build(plan *intake.Plan, dir string, prog progress) (*built, error) {
 	if err := b.fitCovariates(prog); err != nil {
 		return nil, err
 	}
+	if err := b.writeConditionalTable(); err != nil {
+		return nil, err
+	}
 	return b, nil
 }
 

@@ -1,7 +1,14 @@
 package main
 
 import (
+	"bytes"
+	"encoding/csv"
 	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"slices"
+	"strconv"
 
 	"growband/curve"
 	"growband/internal/intake"
@@ -27,4 +34,82 @@ func fitConditional(plan *intake.Plan, ref *curve.Reference, data *curve.Data, p
 		}
 	}
 	return notes, nil
+}
+
+// condTableCentiles are the conditional centiles tabulated in
+// conditional.csv, in percent (those of them in the model's grid).
+var condTableCentiles = []float64{5, 10, 25, 50, 75, 90, 95}
+
+// condTableAges is the number of previous ages tabulated per stratum.
+const condTableAges = 5
+
+// writeConditionalTable writes conditional.csv: for previous visits at a few
+// ages and at the reference's chart centiles, the conditional centiles of
+// the measurement one gap later (the plan's conditional.table_gap, by
+// default the middle of the modelled gaps). It does nothing without a
+// conditional model.
+func (b *built) writeConditionalTable() error {
+	if b.plan.Conditional == nil {
+		return nil
+	}
+	r := b.ref
+	var rows [][]string
+	f := func(x float64) string {
+		if math.IsNaN(x) {
+			return ""
+		}
+		return strconv.FormatFloat(x, 'g', 5, 64)
+	}
+	var cents []float64
+	for _, st := range r.Strata {
+		c := st.Conditional
+		if c == nil {
+			continue
+		}
+		gap := b.plan.Conditional.TableGap
+		if gap == 0 {
+			gap = (c.GapMin + c.GapMax) / 2
+		}
+		var taus []float64
+		cents = cents[:0]
+		for _, p := range condTableCentiles {
+			if slices.ContainsFunc(c.Taus, func(t float64) bool { return math.Abs(t-p/100) < 1e-9 }) {
+				taus, cents = append(taus, p/100), append(cents, p)
+			}
+		}
+		for k := range condTableAges {
+			age := st.AgeMin + (st.AgeMax-gap-st.AgeMin)*float64(k)/(condTableAges-1)
+			for _, tau := range st.Chart {
+				prev, err := r.Quantile(st.Name, age, tau)
+				if err != nil {
+					continue
+				}
+				next, err := r.NextCentiles(st.Name, age, prev, gap, taus)
+				if err != nil {
+					continue // outside the model's ages or previous z-scores
+				}
+				row := []string{st.Name, f(age), f(gap), f(100 * tau), f(prev), f(age + gap)}
+				for _, v := range next {
+					row = append(row, f(v))
+				}
+				rows = append(rows, row)
+			}
+		}
+	}
+	head := []string{"stratum", "prev_age", "gap", "prev_centile", "prev_value", "next_age"}
+	for _, p := range cents {
+		head = append(head, "next_c"+f(p))
+	}
+	var buf bytes.Buffer
+	w := csv.NewWriter(&buf)
+	w.Write(head)
+	w.WriteAll(rows)
+	if err := w.Error(); err != nil {
+		return err
+	}
+	if err := os.WriteFile(filepath.Join(b.dir, "conditional.csv"), buf.Bytes(), 0o644); err != nil {
+		return err
+	}
+	b.files = append(b.files, "conditional.csv")
+	return nil
 }

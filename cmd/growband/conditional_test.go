@@ -34,9 +34,24 @@ func TestBuildAndScoreConditional(t *testing.T) {
 	if !strings.Contains(summary, "conditional model, female:") || !strings.Contains(summary, "conditional model, male:") {
 		t.Errorf("summary does not report the conditional models:\n%s", summary)
 	}
+	// conditional.csv: the conditional centiles of the next measurement
+	// increase across its columns (non-crossing) on every row.
+	head, rows := readCSV(t, readFile(t, filepath.Join(dir, "out", "conditional.csv")))
+	if len(head) != 13 || head[6] != "next_c5" || len(rows) == 0 {
+		t.Fatalf("conditional.csv: %v, %d rows", head, len(rows))
+	}
+	for _, r := range rows {
+		for k := 7; k < len(r); k++ {
+			a, _ := strconv.ParseFloat(r[k-1], 64)
+			b, _ := strconv.ParseFloat(r[k], 64)
+			if r[k] != "" && r[k-1] != "" && !(b >= a) {
+				t.Errorf("conditional.csv row %v: centiles decrease", r)
+			}
+		}
+	}
 	out := mustGB(t, dir, "score", "--ref", "out/reference.json", "--in", "data.csv", "--subject-column", "child",
 		"--stratum-column", "sex", "--stratum-codes", "F=female,M=male,1=male,2=female")
-	head, rows := readCSV(t, out)
+	head, rows = readCSV(t, out)
 	if got := strings.Join(head, ","); got != "child,sex,age,weight,z,centile,cond_z,cond_centile,flag" {
 		t.Fatalf("header %s", got)
 	}

@@ -13,6 +13,7 @@ type Conditional struct {
 	AgeKnots       int       // interior knots in age; 0 = the fitting code's default
 	ZKnots         int       // interior knots in the previous z-score; 0 = default
 	Centiles       []float64 // conditional tau grid in percent; nil = default
+	TableGap       float64   // gap tabulated in conditional.csv; 0 = middle of the modelled gaps
 }
 
 type rawConditional struct {
@@ -20,6 +21,7 @@ type rawConditional struct {
 	AgeKnots raw `toml:"age_knots"`
 	ZKnots   raw `toml:"z_knots"`
 	Centiles raw `toml:"centiles"`
+	TableGap raw `toml:"table_gap"`
 }
 
 // maxCondKnots bounds the knot counts of the conditional model so that a
@@ -74,6 +76,17 @@ func (d *planDecoder) conditional(rc *rawConditional, present bool, in *Input) *
 				d.fail("conditional.centiles", ErrPlanValue, "conditional.centiles: must include 50 (the fit starts at the median)")
 			default:
 				c.Centiles = xs
+			}
+		}
+	}
+	if rc.TableGap.set {
+		if x, ok := d.num("conditional.table_gap", rc.TableGap); ok {
+			if !(x > 0 && x <= maxGapValue) {
+				d.fail("conditional.table_gap", ErrPlanValue, "conditional.table_gap: want a gap above 0")
+			} else if c.GapMax > 0 && !(x >= c.GapMin && x <= c.GapMax) {
+				d.fail("conditional.table_gap", ErrPlanValue, "conditional.table_gap: %g is outside conditional.gap [%g, %g]", x, c.GapMin, c.GapMax)
+			} else {
+				c.TableGap = x
 			}
 		}
 	}
