@@ -14,7 +14,7 @@ import (
 type Shift struct {
 	Measure, Unit, Stratum string
 	A, B                   string    // cohort names; the chart shows A minus B
-	Method                 string    // how the intervals were found, written under the title
+	Method                 string    // how the intervals were found, the band's legend entry
 	Centiles               []float64 // increasing, in (0, 100)
 	Diff, Lo, Hi           []float64 // one per centile
 	Caution                string
@@ -69,7 +69,7 @@ func ShiftChart(s *Shift, opt ...Option) (*Figure, error) {
 	pts.GlyphStyle.Color = shade(hue, medianLight)
 	p.Add(ln, pts)
 	p.Legend.Add(s.A+" minus "+s.B, ln)
-	p.Legend.Add("interval ("+s.Method+")", band)
+	p.Legend.Add(s.Method, band)
 	p.X.Min, p.X.Max = 0, 100
 	p.Add(legendBacking{})
 
