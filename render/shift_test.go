@@ -26,3 +26,21 @@ func TestShiftChart(t *testing.T) {
 		t.Errorf("repeated centile: got %v, want ErrOrder", err)
 	}
 }
+
+func TestConditionalChart(t *testing.T) {
+	c := &Conditional{Measure: "weight", Unit: "kg", AgeUnit: "months", PrevAge: 12, Gap: 3,
+		Curves: []Curve{{Centile: 5, Ages: []float64{8, 9, 10}, Values: []float64{8.5, 9.3, 10.1}},
+			{Centile: 50, Ages: []float64{8, 9, 10}, Values: []float64{9.1, 9.9, 10.8}},
+			{Centile: 95, Ages: []float64{8, 9, 10}, Values: []float64{9.8, 10.6, 11.5}}}}
+	f, err := ConditionalChart(c)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got := f.Panels[0][0].X.Label.Text; got != "Weight at 12 months (kg)" {
+		t.Errorf("x label %q", got)
+	}
+	c.Curves[1].Values = c.Curves[1].Values[:2]
+	if _, err := ConditionalChart(c); !errors.Is(err, ErrLength) {
+		t.Errorf("short curve: got %v, want ErrLength", err)
+	}
+}

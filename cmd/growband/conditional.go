@@ -12,6 +12,7 @@ import (
 
 	"growband/curve"
 	"growband/internal/intake"
+	"growband/render"
 )
 
 // fitConditional adds the plan's conditional model to ref and returns a note
@@ -111,5 +112,74 @@ func (b *built) writeConditionalTable() error {
 		return err
 	}
 	b.files = append(b.files, "conditional.csv")
+	return b.writeConditionalCharts()
+}
+
+// condChartPoints is the number of earlier measurements per curve of the
+// conditional chart, from the 3rd to the 97th centile of the reference.
+const condChartPoints = 41
+
+// conditionalFigure draws, for a visit at the middle of the stratum's ages
+// (less the gap), the conditional centiles of the measurement one gap later
+// (conditional.table_gap) against the earlier measurement.
+func (b *built) conditionalFigure(st *curve.Stratum) (*render.Figure, error) {
+	r, c := b.ref, st.Conditional
+	gap := b.plan.Conditional.TableGap
+	if gap == 0 {
+		gap = (c.GapMin + c.GapMax) / 2
+	}
+	age := st.AgeMin + (st.AgeMax-gap-st.AgeMin)/2
+	var taus []float64
+	for _, p := range condTableCentiles {
+		if slices.ContainsFunc(c.Taus, func(t float64) bool { return math.Abs(t-p/100) < 1e-9 }) {
+			taus = append(taus, p/100)
+		}
+	}
+	curves := make([]render.Curve, len(taus))
+	for k, tau := range taus {
+		curves[k].Centile = 100 * tau
+	}
+	for i := range condChartPoints {
+		prevTau := 0.03 + 0.94*float64(i)/(condChartPoints-1)
+		prev, err := r.Quantile(st.Name, age, prevTau)
+		if err != nil {
+			continue
+		}
+		next, err := r.NextCentiles(st.Name, age, prev, gap, taus)
+		if err != nil || slices.ContainsFunc(next, math.IsNaN) {
+			continue // outside the model's range: not drawn
+		}
+		for k, v := range next {
+			curves[k].Ages = append(curves[k].Ages, prev)
+			curves[k].Values = append(curves[k].Values, v)
+		}
+	}
+	return render.ConditionalChart(&render.Conditional{Measure: r.Measure, Unit: r.Unit, AgeUnit: r.AgeUnit, Stratum: st.Name,
+		PrevAge: age, Gap: gap, Curves: curves, Caution: curve.Caution})
+}
+
+// writeConditionalCharts writes conditional-STRATUM.* for every stratum with
+// a conditional model, in the plan's chart formats.
+func (b *built) writeConditionalCharts() error {
+	formats := chartFormats(b.plan.Output.Charts)
+	stems := fileStems(b.ref.Strata)
+	for i := range b.ref.Strata {
+		st := &b.ref.Strata[i]
+		if st.Conditional == nil {
+			continue
+		}
+		fig, err := b.conditionalFigure(st)
+		if err != nil {
+			b.notes = append(b.notes, fmt.Sprintf("no conditional chart for %s: %v", nameOr(st.Name), err))
+			continue
+		}
+		for _, f := range formats {
+			name := "conditional-" + stems[i] + "." + f
+			if err := render.Save(filepath.Join(b.dir, name), fig, f, 0, 0); err != nil {
+				return err
+			}
+			b.files = append(b.files, name)
+		}
+	}
 	return nil
 }

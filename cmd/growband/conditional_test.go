@@ -34,6 +34,11 @@ func TestBuildAndScoreConditional(t *testing.T) {
 	if !strings.Contains(summary, "conditional model, female:") || !strings.Contains(summary, "conditional model, male:") {
 		t.Errorf("summary does not report the conditional models:\n%s", summary)
 	}
+	for _, name := range []string{"conditional-female.svg", "conditional-male.png"} {
+		if _, err := os.Stat(filepath.Join(dir, "out", name)); err != nil {
+			t.Errorf("build: %v", err)
+		}
+	}
 	// conditional.csv: the conditional centiles of the next measurement
 	// increase across its columns (non-crossing) on every row.
 	head, rows := readCSV(t, readFile(t, filepath.Join(dir, "out", "conditional.csv")))
