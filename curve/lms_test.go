@@ -156,6 +156,7 @@ func TestLMSErrors(t *testing.T) {
 	r.Strata[0].Taus = []float64{0.01, 0.5, 0.99}
 	r.Strata[0].Coef = r.Strata[0].Coef[:3]
 	r.Strata[0].Chart = nil
+	r.Strata[0].Tail = nil
 	if _, err := r.LMS("", 1); !errors.Is(err, ErrDegenerate) {
 		t.Errorf("one tau in [0.03, 0.97]: %v", err)
 	}

@@ -8,7 +8,7 @@ import (
 
 // FormatVersion is the version of the reference file written by Save. Load
 // refuses files of a newer version.
-const FormatVersion = 1
+const FormatVersion = 2
 
 // Caution is written into every reference, table, chart and report.
 const Caution = "This reference describes the sample it was built from. It is not a " +
@@ -66,6 +66,10 @@ type Stratum struct {
 	// LoadLMSTable): the centiles come from the tabulated L, M and S, Knots
 	// and Coef are empty, and Taus equals Chart.
 	LMS *LMSCurve `json:"lms,omitempty"`
+	// Tail models the distribution beyond the centiles the data support
+	// directly (see Tail); nil in an LMS-table stratum, and in files of
+	// version 1, for which Load fits it from the curves.
+	Tail *Tail `json:"tail,omitempty"`
 
 	// checked records that Reference.ready validated an LMS stratum.
 	checked bool `json:"-"`
