@@ -86,6 +86,7 @@ func DiffChart(d *Diff, opt ...Option) (*Figure, error) {
 
 	p := newPlot(base)
 	p.X.Label.Text = withUnit("Age", d.AgeUnit)
+	p.X.Tick.Marker = ageTicks{unit: d.AgeUnit}
 	p.Y.Label.Text = d.YLabel
 	if p.Y.Label.Text == "" {
 		p.Y.Label.Text = "Difference (z units)"

@@ -11,12 +11,9 @@
 // The centile chart shades the areas between paired centiles (for example
 // 3–97, 10–90, 25–75) in one hue, lighter outward; see Palette.
 //
-// The worm plot shows, for n sorted z-scores z₍ᵢ₎ with Blom plotting positions
-// and unit normal quantiles
-//
-//	pᵢ = (i − 3/8) / (n + 1/4),   qᵢ = Φ⁻¹(pᵢ),   dᵢ = z₍ᵢ₎ − qᵢ,
-//
-// the points (qᵢ, dᵢ) and the approximate pointwise 95% envelope
+// The worm plot draws, per age group, the points (qᵢ, dᵢ) of a detrended
+// normal Q–Q plot that curve.Check computes (qᵢ the expected normal score of
+// the i-th smallest z, dᵢ = z₍ᵢ₎ − qᵢ) on the approximate pointwise 95% band
 //
 //	±1.96 · √(p(1 − p)/n) / φ(q),   p = Φ(q),
 //
@@ -26,8 +23,6 @@
 //   - van Buuren S, Fredriks M (2001). Worm plot: a simple diagnostic device
 //     for modelling growth reference curves. Statistics in Medicine 20,
 //     1259–1277.
-//   - Blom G (1958). Statistical Estimates and Transformed Beta-Variables.
-//     Wiley, New York.
 //   - Freedman D, Diaconis P (1981). On the histogram as a density estimator:
 //     L2 theory. Zeitschrift für Wahrscheinlichkeitstheorie und verwandte
 //     Gebiete 57, 453–476.

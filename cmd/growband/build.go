@@ -345,7 +345,7 @@ func (b *built) summary(w io.Writer) error {
 	fmt.Fprintln(tw, "stratum\tn\tages\tinterior knots\tlambda\tchosen by\tsize guard")
 	for _, st := range b.ref.Strata {
 		fmt.Fprintf(tw, "%s\t%d\t%s–%s\t%d\t%.4g\t%s\t%s\n", nameOr(st.Name), st.N, shortAge(st.AgeMin), shortAge(st.AgeMax),
-			st.Smoothness.InteriorKnots, st.Smoothness.Lambda, st.Smoothness.Criterion, guardText(&st))
+			st.Smoothness.InteriorKnots, st.Smoothness.Lambda, curve.CriterionText(st.Smoothness.Criterion), guardText(&st))
 	}
 	tw.Flush()
 	for _, n := range b.notes {

@@ -223,12 +223,13 @@ func wormFigures(r *curve.Reference, d *curve.Diagnostics) ([]*render.Figure, er
 	for i, st := range r.Strata {
 		wm := &render.Worm{Measure: r.Measure, Stratum: st.Name, Caution: curve.Caution}
 		for _, g := range d.Groups {
-			if g.Stratum != st.Name || len(g.Worm.Z) < 3 {
+			if g.Stratum != st.Name || len(g.Worm.Normal) < 3 {
 				continue
 			}
 			wm.Groups = append(wm.Groups, render.WormGroup{
-				Label: fmt.Sprintf("%.3g–%.3g", g.AgeLo, g.AgeHi),
-				Z:     g.Worm.Z,
+				Label:     fmt.Sprintf("%.3g–%.3g", g.AgeLo, g.AgeHi),
+				Expected:  g.Worm.Normal,
+				Deviation: g.Worm.Deviation,
 			})
 		}
 		if len(wm.Groups) == 0 {

@@ -304,10 +304,24 @@ func TestBuild(t *testing.T) {
 			t.Errorf("report contains %q: not self-contained", bad)
 		}
 	}
-	for _, want := range []string{"Q-tests", "implausible against a first-pass fit", "This reference describes the sample"} {
+	for _, want := range []string{"Q-tests", "implausible against a first-pass fit", "This reference describes the sample",
+		"Schwarz criterion", "Sampling weights were not used", "effective df (median)", "Smoothness values tried: female",
+		"Expected normal score", "Observed minus expected z", "--sd-curves"} {
 		if !strings.Contains(rep, want) {
 			t.Errorf("report lacks %q", want)
 		}
+	}
+	// The criterion is written out, never shown as its plan key.
+	for _, bad := range []string{">sic<", "Unit normal quantile", ">Deviation<"} {
+		if strings.Contains(rep, bad) {
+			t.Errorf("report shows %q", bad)
+		}
+	}
+	if !strings.Contains(f.summary, "Schwarz criterion") {
+		t.Errorf("summary does not name the criterion in words:\n%s", f.summary)
+	}
+	if n := strings.Count(rep, "<td class=\"l\">chosen</td>"); n != 2 {
+		t.Errorf("report marks %d chosen smoothness values, want one per stratum", n)
 	}
 }
 

@@ -13,17 +13,17 @@ import (
 	"growband/internal/intake"
 )
 
-// whoBirth holds WHO Child Growth Standards 2006 weight-for-age L, M, S at
+// publishedBirthLMS holds WHO Child Growth Standards 2006 weight-for-age L, M, S at
 // birth and day 1 for boys (0.3487, 3.3464, 0.14602; 0.3127, 3.3174,
 // 0.14600) and girls (0.3809, 3.2322, 0.14171; 0.3470, 3.1957, 0.14173),
 // from memory. Only the birth rows enter expected values.
-const whoBirth = "# age_unit = days\n# measure = weight\n# unit = kg\nsex,age,L,M,S\n" +
+const publishedBirthLMS = "# age_unit = days\n# measure = weight\n# unit = kg\nsex,age,L,M,S\n" +
 	"male,0,0.3487,3.3464,0.14602\nmale,1,0.3127,3.3174,0.14600\n" +
 	"female,0,0.3809,3.2322,0.14171\nfemale,1,0.3470,3.1957,0.14173\n"
 
 func testRef(t *testing.T) *curve.Reference {
 	t.Helper()
-	r, err := curve.LoadLMSTable(strings.NewReader(whoBirth), "who.csv", nil)
+	r, err := curve.LoadLMSTable(strings.NewReader(publishedBirthLMS), "lms-birth.csv", nil)
 	if err != nil {
 		t.Fatal(err)
 	}
