@@ -111,7 +111,8 @@ func (t ageTicks) Ticks(lo, hi float64) []plot.Tick {
 		}
 		var out []plot.Tick
 		for k := math.Ceil(lo/step - 1e-9); k*step <= hi+step*1e-9; k++ {
-			out = append(out, plot.Tick{Value: k * step, Label: strconv.FormatFloat(k*step, 'f', -1, 64)})
+			v := k*step + 0 // + 0 turns -0 into 0
+			out = append(out, plot.Tick{Value: v, Label: strconv.FormatFloat(v, 'f', -1, 64)})
 		}
 		if minor > 0 {
 			for k := math.Ceil(lo/minor - 1e-9); k*minor <= hi+minor*1e-9; k++ {

@@ -518,30 +518,3 @@ func writeRowsCSV(w io.Writer, centiles []float64, rows []tableRow, velocity boo
 	cw.Flush()
 	return cw.Error()
 }
-
-// centileFigure draws the centile chart of one stratum with an optional
-// data cloud and children's trajectories.
-func centileFigure(r *curve.Reference, st *curve.Stratum, pts *render.Points, children []render.Child) (*render.Figure, error) {
-	ages := linspace(st.AgeMin, st.AgeMax, chartPoints)
-	tab, err := r.Table(st.Name, ages, st.Chart)
-	if err != nil {
-		return nil, err
-	}
-	c := &render.Centiles{
-		Measure: r.Measure, Unit: r.Unit, AgeUnit: r.AgeUnit, Stratum: st.Name,
-		Data: pts, Children: children, Caution: curve.Caution,
-	}
-	for j, tau := range st.Chart {
-		cv := render.Curve{Centile: tidy(100 * tau), Ages: ages, Values: make([]float64, len(ages))}
-		for i := range ages {
-			cv.Values[i] = tab.Values[i][j]
-		}
-		for _, bd := range st.Bands {
-			if bd.Tau == tau {
-				cv.Band = &render.Band{Ages: bd.Ages, Lo: bd.Lo, Hi: bd.Hi}
-			}
-		}
-		c.Curves = append(c.Curves, cv)
-	}
-	return render.CentileChart(c)
-}

@@ -270,7 +270,7 @@ func (c *columnFlags) register(fs *flag.FlagSet, withSubject bool) {
 	fs.StringVar(&c.dateFormat, "date-format", intake.DefaultDateFormat, "layout of the date columns, e.g. YYYY-MM-DD, DD/MM/YYYY, MM/DD/YYYY, DD.MM.YYYY or YYYYMMDD")
 	fs.StringVar(&c.codes, "stratum-codes", "", `map stratum codes to the reference's names, e.g. "F=female,M=male,1=male,2=female"`)
 	if withSubject {
-		fs.StringVar(&c.subject, "child-column", "", "column holding the child id (points of one child are joined)")
+		fs.StringVar(&c.subject, "subject-column", "", "column holding the child (subject) id: points of one child are joined")
 	}
 }
 

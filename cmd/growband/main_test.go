@@ -545,6 +545,22 @@ func TestChart(t *testing.T) {
 			t.Errorf("chart SVG does not label child k1")
 		}
 	}
+	// Part of the age range, with the curves at whole SD.
+	part := filepath.Join(f.dir, "part.svg")
+	mustGB(t, f.dir, "chart", "--ref", f.ref(), "--stratum", "male", "--ages", "0:24", "--sd-curves", "--out", part)
+	b, _ := os.ReadFile(part)
+	svg := string(b)
+	for _, want := range []string{">+2 SD<", ">−2 SD<", ">24<", ">18<"} {
+		if !strings.Contains(svg, want) {
+			t.Errorf("chart --ages 0:24 --sd-curves lacks %q", want)
+		}
+	}
+	if strings.Contains(svg, ">48<") {
+		t.Errorf("chart --ages 0:24 has a tick at 48 months")
+	}
+	if _, _, code := gb(t, f.dir, "chart", "--ref", f.ref(), "--stratum", "male", "--ages", "24", "--out", part); code != 2 {
+		t.Errorf("--ages 24: exit %d, want 2", code)
+	}
 	// Several strata and none chosen: bad usage.
 	if _, errOut, code := gb(t, f.dir, "chart", "--ref", f.ref(), "--out", filepath.Join(f.dir, "x.svg")); code != 2 || !strings.Contains(errOut, "--stratum") {
 		t.Errorf("no stratum: exit %d, %q", code, errOut)
@@ -650,7 +666,7 @@ func TestHelp(t *testing.T) {
 		"demo":  {"-out", "-measure", "-half"},
 		"table": {"-ref", "-ages", "-ages-file", "-centiles", "-stratum", "-format", "-velocity"},
 		"score": {"-ref", "-in", "-age", "-value", "-stratum", "-format", "-age-column", "-birth-column", "-visit-column", "-value-column", "-stratum-column"},
-		"chart": {"-ref", "-points", "-stratum", "-out", "-child-column"},
+		"chart": {"-ref", "-points", "-stratum", "-out", "-subject-column", "-ages", "-sd-curves"},
 		"check": {"-ref", "-in", "-out", "-bands"},
 	}
 	for cmd, fl := range flags {
