@@ -315,8 +315,13 @@ func wilson(k, n int, level float64) (lo, hi float64) {
 	return max(mid-half, 0), min(mid+half, 1)
 }
 
+// WormOf returns the worm-plot points of the z-scores z (z is not
+// modified), as Check computes them for each group. Its Normal and Z are
+// also the points of a normal Q–Q plot. It is growband's one computation
+// of these points; render only draws them.
+func WormOf(z []float64) Worm { return worm(z) }
+
 // worm returns the worm-plot points of the z-scores (z is not modified).
-// It is the one worm computation of growband: render draws these points.
 func worm(z []float64) Worm {
 	n := len(z)
 	w := Worm{

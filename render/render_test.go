@@ -142,7 +142,7 @@ func TestOtherChartsSVGText(t *testing.T) {
 	}{
 		{"worm", []string{"Worm plot of weight z-scores — girls", "Expected normal score", "Observed minus expected z"}},
 		{"zdist", []string{"Weight z-scores in clinic sample — girls", "z-score", "Density", "n = 500", "standard normal density"}},
-		{"diff", []string{"Reference B against reference A: weight — girls", "Age (months)", "Difference (z units)", "3", "50", "97"}},
+		{"diff", []string{"Weight centiles of reference B in z-scores of reference A — girls", "Age (months)", "Difference (z units)", "3", "50", "97"}},
 	}
 	for _, tc := range cases {
 		texts := svgTexts(render(t, fs[tc.chart], "svg"))

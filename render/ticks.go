@@ -82,8 +82,9 @@ var ageSteps = map[string][][2]float64{
 	"days":   {{1, 0}, {7, 1}, {14, 7}, {28, 7}, {91, 0}, {182, 91}, {365, 0}},
 }
 
-// ageMaxIntervals is the most major intervals the age ticker allows.
-const ageMaxIntervals = 10
+// ageMaxIntervals is the most major intervals the age ticker allows: 0–60
+// months (with room for curve labels) still ticks every 6.
+const ageMaxIntervals = 11
 
 // ageTicks ticks an age axis at the steps of its unit (ageSteps); an
 // unknown unit, or a range too long for the steps, falls back to niceTicks.

@@ -640,7 +640,7 @@ func TestBadInput(t *testing.T) {
 		{"score column missing", []string{"score", "--ref", f.ref(), "--in", data, "--value-column", "kg", "--stratum", "female"}, 1, `d.csv:1: column "kg" not in header`},
 		{"score unknown stratum", []string{"score", "--ref", f.ref(), "--age", "3", "--value", "5", "--stratum", "other"}, 1, "unknown stratum"},
 		{"score out of range", []string{"score", "--ref", f.ref(), "--age", "300", "--value", "5", "--stratum", "male"}, 1, "age outside the reference's range"},
-		{"bad bands", []string{"check", "--ref", f.ref(), "--in", data, "--bands", "3,1"}, 2, "--bands must increase"},
+		{"bad bands", []string{"check", "--ref", f.ref(), "--in", data, "--bands", "3,1"}, 2, "--bands: edges must increase"},
 		{"score half single", []string{"score", "--ref", f.ref(), "--age", "3"}, 2, "--age and --value go together"},
 	}
 	for _, c := range cases {
