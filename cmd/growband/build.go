@@ -317,6 +317,7 @@ func (b *built) writeCentiles(w io.Writer) error {
 	if err != nil {
 		return err
 	}
+	roundTable(b.ref, rows, cols, false)
 	return writeRowsCSV(w, cols, rows, false)
 }
 

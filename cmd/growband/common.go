@@ -206,12 +206,14 @@ func selectStrata(r *curve.Reference, name string) ([]*curve.Stratum, error) {
 // "50", "97" or "2.5".
 func centileName(p float64) string { return strconv.FormatFloat(p, 'g', -1, 64) }
 
-// num formats a measurement-scale number for tables: six significant digits.
+// num formats a number as the shortest text that reads back as x: table
+// values are rounded first (roundTable), to six significant digits or as
+// many more as a centile needs.
 func num(x float64) string {
 	if math.IsNaN(x) {
 		return ""
 	}
-	return strconv.FormatFloat(x, 'g', 6, 64)
+	return strconv.FormatFloat(x, 'g', -1, 64)
 }
 
 // ageText formats an age.
