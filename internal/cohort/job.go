@@ -15,6 +15,7 @@ import (
 
 	"growband/curve"
 	"growband/internal/intake"
+	"growband/internal/scorefile"
 	"growband/render"
 )
 
@@ -356,25 +357,11 @@ func writeRows(w io.Writer, ref *curve.Reference, cohorts []Cohort, data []*curv
 			}
 			cw.Write([]string{r.Cohort, t.Name, strconv.Itoa(t.Rows[i].Line), stratumOf(ref, d, i),
 				strconv.FormatFloat(d.Age[i], 'g', -1, 64), strconv.FormatFloat(d.Value[i], 'g', -1, 64),
-				weight, subject, strconv.FormatFloat(z, 'g', 10, 64), CentileText(z)})
+				weight, subject, strconv.FormatFloat(z, 'g', 10, 64), scorefile.CentileText(100 * normP(z))})
 		}
 	}
 	cw.Flush()
 	return cw.Error()
-}
-
-// CentileText writes the centile of z-score z, 100 Φ(z), with two
-// decimals, or as many more as it takes to tell a tail centile from 0 or
-// 100 (z = 4.9 is "99.999952", not "100"). Beyond |z| of about 8.2 the
-// centile is 0 or 100 to double precision and prints so.
-func CentileText(z float64) string {
-	c := 100 * normP(z)
-	tail := 100 * normP(-math.Abs(z)) // the smaller of c and 100-c, without cancellation
-	dec := 2
-	if tail > 0 && tail < 0.1 {
-		dec = min(int(math.Ceil(-math.Log10(tail)))+2, 15)
-	}
-	return strconv.FormatFloat(c, 'f', dec, 64)
 }
 
 // writeJSON writes v as indented JSON with NaN and infinite numbers as

@@ -9,6 +9,8 @@ import (
 	"strings"
 	"testing"
 
+	"gonum.org/v1/gonum/stat/distuv"
+
 	"growband/curve"
 	"growband/internal/intake"
 )
@@ -137,5 +139,19 @@ func TestWriteJSON(t *testing.T) {
 	}
 	if doc.Rows[1].Z != nil || doc.Rows[1].Flag == "" {
 		t.Errorf("unscored row %+v", doc.Rows[1])
+	}
+}
+
+func TestCentileTextTails(t *testing.T) {
+	// Centiles of z = 4.9 and -4.9: 100 Phi(z) and its complement (gonum
+	// v0.17.0 distuv.UnitNormal); each prints distinct from 100 and 0.
+	for _, c := range []struct {
+		z    float64
+		want string
+	}{{4.9, "99.9999521"}, {-4.9, "0.0000479"}, {0, "50.00"}, {-3, "0.135"}, {3.09, "99.900"}, {2.5, "99.379"}} {
+		got := CentileText(100 * distuv.UnitNormal.CDF(c.z))
+		if got != c.want {
+			t.Errorf("z %g: %q, want %q", c.z, got, c.want)
+		}
 	}
 }
