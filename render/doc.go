@@ -1,9 +1,16 @@
-// Package render draws growband's charts with gonum/plot: the centile chart,
-// the worm plot of detrended normal Q–Q points per age group, the histogram of
-// a cohort's z-scores against the standard normal density, and the chart of a
-// difference curve between two references in z units. Charts are built from
-// plain input structs (this package knows nothing of how curves are fitted)
-// and written as SVG, PNG or PDF by Write and Save.
+// Package render draws growband's charts with gonum/plot: the centile chart
+// (with optional curves at whole SD and an overlay of a second set of
+// curves), the worm plot of detrended normal Q–Q points per age group, the
+// histogram of a cohort's z-scores against the standard normal density
+// (weighted, and with a second cohort overlaid, on request), the normal Q–Q
+// plot, the mean z by age band, and the chart of a difference curve between
+// two references in z units. Charts are built from plain input structs (this
+// package knows nothing of how curves are fitted) and written as SVG, PNG or
+// PDF by Write and Save. Age axes tick at the steps growth charts use (in
+// months 3, 6 or 12; in years whole years). Point clouds and Q–Q or worm
+// points are thinned to evenly spaced rows or ranks beyond a few thousand
+// (clouds) or 400 (panels), and the chart says so, so that a chart's size
+// does not grow with the data.
 //
 // Each constructor returns a *Figure: one plot or a grid of panels, a title
 // and the caution printed in small type at the bottom.

@@ -60,7 +60,8 @@ const reportHTML = `<!DOCTYPE html>
 <p class="meta">The effective degrees of freedom of a fit are the number of rows its median curve passes through
 exactly (Koenker, Ng &amp; Portnoy 1994). {{.ScaleChoice}}</p>
 {{range .Candidates}}<h3>Smoothness values tried: {{.Name}}</h3>
-<p class="meta">In the order tried, simplest first; {{.Rule}}. The chosen value is marked.</p>
+<p class="meta">In the order tried: interior knot counts from the fewest (no penalty), then penalty
+weights lambda at the best count; {{.Rule}}. The chosen value is marked.</p>
 <table>
 <tr><th>interior knots</th><th>lambda</th><th>{{.Criterion}}</th><th>effective df (median)</th><th class="l"></th></tr>
 {{range .Rows}}<tr><td>{{.Knots}}</td><td>{{.Lambda}}</td><td>{{.Score}}</td><td>{{.EDF}}</td><td class="l">{{if .Chosen}}chosen{{end}}</td></tr>
@@ -203,7 +204,7 @@ func (b *built) report(w io.Writer, charts, worms [][]byte) error {
 	if w := b.plan.Input.Weight; w != "" {
 		data["Weights"] = fmt.Sprintf("Sampling weights (column %q) were used: each row counts by its weight in the fit, the smoothness criterion (at Kish's effective sample size) and the diagnostics' shares.", w)
 	}
-	data["ScaleChoice"] = fmt.Sprintf("The age scale, %s, is set by the plan, not chosen by a criterion.", scaleText(r))
+	data["ScaleChoice"] = fmt.Sprintf("The age scale (curves in %s) is set by the plan, not chosen by a criterion.", scaleText(r))
 	var ch, wm []template.HTML
 	for _, c := range charts {
 		ch = append(ch, inlineSVG(c))
