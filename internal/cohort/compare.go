@@ -60,7 +60,7 @@ type Result struct {
 	Weighted  bool `json:"weighted"`
 	// Method says in words how the intervals were computed.
 	Method string `json:"method"`
-	Rows   int    `json:"rows"`   // rows given
+	Rows   int    `json:"rows"`   // rows given (Run: the rows of the file, read or not)
 	Scored int    `json:"scored"` // rows scored and summarised
 	// Unscored lists every row that could not be used, with the reason.
 	Unscored []Unscored `json:"unscored"`
