@@ -96,6 +96,26 @@ type Smoothness struct {
 	Order         int     `json:"order"`     // difference order of the penalty
 	Criterion     string  `json:"criterion"` // "fixed", "sic" or "cv"
 	Score         float64 `json:"score"`     // criterion value at the choice
+	// ChosenBy says in words how the smoothness was chosen, for readers of
+	// the file: CriterionText(Criterion).
+	ChosenBy string `json:"chosen_by,omitempty"`
+	// EDF is the effective degrees of freedom of the median fit at the
+	// choice: the number of rows it interpolates (Koenker, Ng & Portnoy
+	// 1994); 0 when not computed (cross-validation fits held-out folds).
+	EDF int `json:"edf,omitempty"`
+	// Candidates are the smoothness values tried, in the order tried, with
+	// their criterion values.
+	Candidates []Candidate `json:"candidates,omitempty"`
+}
+
+// Candidate is one smoothness value tried and its criterion value (lower
+// is better); SE is the standard error of a cross-validated score.
+type Candidate struct {
+	InteriorKnots int     `json:"interior_knots"`
+	Lambda        float64 `json:"lambda"`
+	Score         float64 `json:"score"`
+	SE            float64 `json:"se,omitempty"`
+	EDF           int     `json:"edf,omitempty"`
 }
 
 // Flag records a sample-size guard decision: too few observations beyond the

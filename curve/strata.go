@@ -84,7 +84,7 @@ func fitStratum(pl *pool, r *rows, c *config) (*Stratum, error) {
 	taus, dropped := tauGrid(c.chart, windows, c.guardMin)
 	flags := append(chartFlags(c.chart, windows, c.guardMin), dropped...)
 	c.prog.printf("stratum %q: %d interior knots, lambda %.4g (%s); fitting %d centile curves",
-		r.name, ch.smooth.InteriorKnots, ch.smooth.Lambda, ch.smooth.Criterion, len(taus))
+		r.name, ch.smooth.InteriorKnots, ch.smooth.Lambda, ch.smooth.ChosenBy, len(taus))
 	coef, err := fitGrid(pl, m, r.y, r.w, ch.smooth.Lambda, taus, c.nonCross, ch.median)
 	if err != nil {
 		return nil, err
