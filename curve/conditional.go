@@ -7,6 +7,7 @@ import (
 	"math"
 	"runtime"
 	"slices"
+	"sort"
 
 	"gonum.org/v1/gonum/stat"
 
@@ -409,7 +410,7 @@ func (r *Reference) ScoreChanges(d *Data) []ChangeScore {
 				out[i].Err = err
 				continue
 			}
-			cz, flags, err := place(c.Taus, q, z[k])
+			cz, flags, err := condPlace(c.Taus, q, z[k])
 			if err != nil {
 				out[i].Err = err
 				continue
@@ -526,6 +527,32 @@ func fitConditional(pl *pool, r *Reference, pairs []condPair, lo, hi float64, ak
 	return c, nil
 }
 
+// condPlace returns the conditional z-score of the later visit's z-score v
+// among the non-decreasing conditional quantiles q of the levels taus:
+// interpolated linearly in z between neighbouring levels (place), and beyond
+// the outermost levels on the line through the two outermost distinct
+// quantiles of that side, with FlagBeyondTail. The conditional distribution
+// of a z-score is close to normal, so keeping the spread of the outermost
+// band in z units is the normal tail's own rule.
+func condPlace(taus, q []float64, v float64) (float64, ScoreFlags, error) {
+	n := len(q)
+	if !(q[0] < q[n-1]) {
+		return 0, 0, fmt.Errorf("%w: conditional centiles all equal %g", ErrDegenerate, q[0])
+	}
+	switch {
+	case v < q[0]:
+		k := sort.Search(n, func(i int) bool { return q[i] > q[0] })
+		z0, zk := normZ(taus[0]), normZ(taus[k])
+		return z0 + (v-q[0])*((zk-z0)/(q[k]-q[0])), FlagBeyondTail, nil
+	case v > q[n-1]:
+		k := sort.SearchFloat64s(q, q[n-1]) - 1 // last q < q[n-1]
+		zk, z1 := normZ(taus[k]), normZ(taus[n-1])
+		return z1 + (v-q[n-1])*((z1-zk)/(q[n-1]-q[k])), FlagBeyondTail, nil
+	}
+	z, err := place(taus, q, v)
+	return z, 0, err
+}
+
 // check validates a stored conditional model (for Reference.Validate).
 func (c *Conditional) check(name string) error {
 	bad := func(format string, a ...any) error {
@@ -598,7 +625,7 @@ func (r *Reference) ScoreChange(stratum string, prevAge, prevValue, age, value f
 	if err != nil {
 		return Score{}, fmt.Errorf("stratum %q: %w", st.Name, err)
 	}
-	z, flags, err := place(c.Taus, q, now.Z)
+	z, flags, err := condPlace(c.Taus, q, now.Z)
 	if err != nil {
 		return Score{}, fmt.Errorf("stratum %q: %w", st.Name, err)
 	}

@@ -2,10 +2,12 @@ package curve
 
 import (
 	"fmt"
+	"math"
 	"slices"
 	"sync"
 
 	"growband/curve/solver"
+	"growband/spline"
 )
 
 // pool bounds the number of solver calls running at once. Only solver calls
@@ -82,7 +84,7 @@ func fitStratum(pl *pool, r *rows, c *config) (*Stratum, error) {
 	taus, dropped := tauGrid(c.chart, windows, c.guardMin)
 	flags := append(chartFlags(c.chart, windows, c.guardMin), dropped...)
 	c.prog.printf("stratum %q: %d interior knots, lambda %.4g (%s); fitting %d centile curves",
-		r.name, ch.smooth.InteriorKnots, ch.smooth.Lambda, ch.smooth.Criterion, len(taus))
+		r.name, ch.smooth.InteriorKnots, ch.smooth.Lambda, ch.smooth.ChosenBy, len(taus))
 	coef, err := fitGrid(pl, m, r.y, r.w, ch.smooth.Lambda, taus, c.nonCross, ch.median)
 	if err != nil {
 		return nil, err
@@ -98,6 +100,18 @@ func fitStratum(pl *pool, r *rows, c *config) (*Stratum, error) {
 		Chart:      slices.Clone(c.chart),
 		Smoothness: ch.smooth,
 		Flags:      flags,
+	}
+	neffMin := math.Inf(1)
+	for _, w := range windows {
+		neffMin = min(neffMin, w.neff)
+	}
+	lo, hi := bodyLimits(taus, neffMin)
+	b, err := spline.New(st.Knots, c.degree)
+	if err != nil {
+		return nil, err
+	}
+	if st.Tail, err = fitTail(st, b, c.scale, c.degree, lo, hi); err != nil {
+		return nil, err
 	}
 	if c.boot > 0 {
 		st.Bands, err = bootstrapBands(pl, r, m, st, c)

@@ -5,7 +5,6 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"path/filepath"
 	"slices"
 	"strconv"
 
@@ -241,71 +240,56 @@ func writeFaltering(w io.Writer, fs []Faltering) error {
 // ErrNoSubjects: growth faltering needs subject ids to pair visits.
 var ErrNoSubjects = errors.New("cohort: no subject ids")
 
-// growthDoc holds compare's growth results: the faltering shares of the
-// cohort (with subject ids and a conditional model) and the centile
-// differences of two cohorts (with --vs).
-type growthDoc struct {
-	Faltering []Faltering `json:"growth_faltering,omitempty"`
-	Centiles  []Shift     `json:"centile_differences,omitempty"`
-}
-
-// growth computes what applies: faltering when da has subject ids and ref a
-// conditional model, centile differences when db is not nil.
-func growth(ref *curve.Reference, da, db *curve.Data, level float64) (*growthDoc, error) {
-	g := &growthDoc{}
+// addGrowth adds what applies to doc: the growth-faltering shares of the
+// first cohort when it has subject ids and ref a conditional model, and the
+// centile differences of two cohorts.
+func addGrowth(ref *curve.Reference, data []*curve.Data, doc *Document, level float64) error {
 	var err error
-	if da.Subject != nil && hasConditional(ref) {
-		if g.Faltering, err = GrowthFaltering(ref, da, level); err != nil {
-			return nil, err
-		}
-	}
-	if db != nil {
-		if g.Centiles, err = CompareCentiles(ref, da, db, level, 1); err != nil {
-			return nil, fmt.Errorf("centile differences: %w", err)
-		}
-	}
-	return g, nil
-}
-
-// writeText appends the growth tables to a CSV summary, each after a blank
-// line and a "# ..." title line.
-func (g *growthDoc) writeText(w io.Writer) error {
-	if len(g.Faltering) > 0 {
-		fmt.Fprintf(w, "\n# growth faltering: later visits below the %gth conditional centile\n", float64(FalteringCentile))
-		if err := writeFaltering(w, g.Faltering); err != nil {
+	if len(data) > 0 && data[0].Subject != nil && hasConditional(ref) {
+		if doc.Faltering, err = GrowthFaltering(ref, data[0], level); err != nil {
 			return err
 		}
 	}
-	if len(g.Centiles) > 0 {
-		fmt.Fprintln(w, "\n# cohorts compared centile by centile (first minus --vs), adjusted for age")
-		return writeShifts(w, g.Centiles)
+	if len(data) == 2 {
+		if doc.Centiles, err = CompareCentiles(ref, data[0], data[1], level, 1); err != nil {
+			return fmt.Errorf("centile differences: %w", err)
+		}
 	}
 	return nil
 }
 
-// writeFiles writes growth.csv, centile-diff.csv and a chart of the
-// differences across centiles per stratum (centile-diff-STRATUM.svg) into
-// dir, and returns the paths written.
-func (g *growthDoc) writeFiles(dir string, ref *curve.Reference, nameA, nameB string) ([]string, error) {
-	var written []string
-	if len(g.Faltering) > 0 {
-		p := filepath.Join(dir, "growth.csv")
-		if err := writeFile(p, func(w io.Writer) error { return writeFaltering(w, g.Faltering) }); err != nil {
-			return written, err
+// writeGrowthText appends the growth tables to a CSV summary, each after a
+// blank line and a "# ..." title line.
+func writeGrowthText(w io.Writer, doc *Document) error {
+	if len(doc.Faltering) > 0 {
+		fmt.Fprintf(w, "\n# growth faltering: later visits below the %gth conditional centile\n", float64(FalteringCentile))
+		if err := writeFaltering(w, doc.Faltering); err != nil {
+			return err
 		}
-		written = append(written, p)
 	}
-	if len(g.Centiles) == 0 {
-		return written, nil
+	if len(doc.Centiles) > 0 {
+		fmt.Fprintln(w, "\n# cohorts compared centile by centile (first minus --vs), adjusted for age")
+		return writeShifts(w, doc.Centiles)
 	}
-	p := filepath.Join(dir, "centile-diff.csv")
-	if err := writeFile(p, func(w io.Writer) error { return writeShifts(w, g.Centiles) }); err != nil {
-		return written, err
+	return nil
+}
+
+// growthFiles returns the growth tables to write (growth.csv,
+// centile-diff.csv) and the charts of the centile differences per stratum
+// (centile-diff-STRATUM).
+func growthFiles(ref *curve.Reference, doc *Document) (tables map[string]func(io.Writer) error, figs []namedFigure, err error) {
+	tables = map[string]func(io.Writer) error{}
+	if len(doc.Faltering) > 0 {
+		tables["growth.csv"] = func(w io.Writer) error { return writeFaltering(w, doc.Faltering) }
 	}
-	written = append(written, p)
+	if len(doc.Centiles) == 0 {
+		return tables, nil, nil
+	}
+	tables["centile-diff.csv"] = func(w io.Writer) error { return writeShifts(w, doc.Centiles) }
 	for _, st := range ref.Strata {
-		s := &render.Shift{Measure: ref.Measure, Unit: ref.Unit, Stratum: st.Name, A: nameA, B: nameB, Caution: curve.Caution}
-		for _, c := range g.Centiles {
+		s := &render.Shift{Measure: ref.Measure, Unit: ref.Unit, Stratum: st.Name,
+			A: doc.Cohorts[0].Cohort, B: doc.Cohorts[1].Cohort, Caution: curve.Caution}
+		for _, c := range doc.Centiles {
 			if c.Stratum == st.Name {
 				s.Method = c.Method
 				s.Centiles, s.Diff = append(s.Centiles, c.Centile), append(s.Diff, c.Diff)
@@ -317,13 +301,9 @@ func (g *growthDoc) writeFiles(dir string, ref *curve.Reference, nameA, nameB st
 		}
 		fig, err := render.ShiftChart(s)
 		if err != nil {
-			return written, err
+			return nil, nil, err
 		}
-		p := filepath.Join(dir, "centile-diff-"+stem(st.Name)+".svg")
-		if err := saveChart(p, fig); err != nil {
-			return written, err
-		}
-		written = append(written, p)
+		figs = append(figs, namedFigure{file: "centile-diff-" + stem(st.Name), fig: fig})
 	}
-	return written, nil
+	return tables, figs, nil
 }
