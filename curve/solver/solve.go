@@ -117,11 +117,17 @@ func solveOn(t *table, pr *Problem, s *Settings, start *Solution, cr *carry) (*S
 			}
 		}
 		a, err := solveReduced(t, n, pr.Tau, cr, basis, m, method, s.MaxIter)
-		if err != nil {
-			return nil, err
+		var re *reductionError
+		if !errors.As(err, &re) {
+			if err != nil {
+				return nil, err
+			}
+			a.v.method = Interior
+			return solution(t, a), nil
 		}
-		a.v.method = Interior
-		return solution(t, a), nil
+		// The reduction failed its check twice: solve the whole problem.
+		method, basis = Interior, nil
+		*cr = carry{}
 	}
 	if method == Interior {
 		basis = nil
@@ -131,8 +137,12 @@ func solveOn(t *table, pr *Problem, s *Settings, start *Solution, cr *carry) (*S
 	}
 	r := make([]float64, t.rows())
 	t.residuals(r, v.b)
-	return solution(t, &answer{v: v, r: r, obj: t.objective(r),
-		dualAt: func(i int) float64 { return v.dual[i] }, mu: v.dual[t.nSoft:]}), nil
+	obj := t.objective(r)
+	dualAt := func(i int) float64 { return v.dual[i] }
+	if err := certifyTable(t, v.b, r, dualAt, v.dual[t.nSoft:], obj); err != nil {
+		return nil, err
+	}
+	return solution(t, &answer{v: v, r: r, obj: obj, dualAt: dualAt, mu: v.dual[t.nSoft:]}), nil
 }
 
 // nearSample: the share of rows below a neighbouring solution is read off
