@@ -15,16 +15,11 @@ type pool struct{ tokens chan struct{} }
 
 func newPool(workers int) *pool { return &pool{tokens: make(chan struct{}, max(workers, 1))} }
 
-// solve runs solver.Solve under a token, warm-started from start (may be
-// nil).
-func (pl *pool) solve(p *solver.Problem, start *solver.Solution) (*solver.Solution, error) {
+// grid runs solver.SolveGrid under a token.
+func (pl *pool) grid(p *solver.Problem, taus []float64, s *solver.Settings) ([]*solver.Solution, error) {
 	pl.tokens <- struct{}{}
 	defer func() { <-pl.tokens }()
-	var s *solver.Settings
-	if start != nil {
-		s = &solver.Settings{Start: start}
-	}
-	return solver.Solve(p, s)
+	return solver.SolveGrid(p, taus, s)
 }
 
 // parallel runs f(0), ..., f(n-1) concurrently and returns the error of the

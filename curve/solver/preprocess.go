@@ -116,6 +116,12 @@ func solveReduced(full *table, nData int, tau float64, cr *carry, basis []int, m
 	tol, tie := zeroResidual*ys, tieResidual*ys
 	red := cr.ready
 	cr.ready = nil
+	if red != nil {
+		// Prepared on another view of the same data rows (a grid's first
+		// tau has no ordering rows): its pools stand, its other rows are
+		// full's.
+		red.full = full
+	}
 	if red == nil || !slices.Equal(red.guess, guess) {
 		red = cr.reduction(full, nData)
 		red.classify(guess, tau, m)
@@ -211,7 +217,7 @@ func (e *reductionError) Unwrap() error { return e.cert }
 func (cr *carry) reduction(full *table, nData int) *reduction {
 	red := cr.spare
 	cr.spare = nil
-	if red == nil || red.full != full || len(red.sign) != nData {
+	if red == nil || red.full.x != full.x || len(red.sign) != nData {
 		red = &reduction{sign: make([]int8, nData)}
 	}
 	red.full, red.nData, red.scale = full, nData, cr.scale

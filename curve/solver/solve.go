@@ -2,6 +2,7 @@ package solver
 
 import (
 	"errors"
+	"fmt"
 	"math"
 	"slices"
 )
@@ -67,21 +68,6 @@ func solveTable(t *table, basis []int, method Method, maxIter int) (*vertex, err
 		return nil, err
 	}
 	return &vertex{b: s.b, basis: s.basis, dual: s.dual(), iters: iters + s.iter, method: method}, nil
-}
-
-func solve(pr *Problem, s *Settings) (*Solution, error) {
-	if err := pr.validate(); err != nil {
-		return nil, err
-	}
-	if s == nil {
-		s = &Settings{}
-	}
-	t := newTable(pr)
-	if _, err := coldBasis(t); err != nil {
-		return nil, err
-	}
-	sol, err := solveOn(t, pr, s, s.Start, &carry{})
-	return sol, err
 }
 
 // solveOn solves the problem pr whose internal form is t (with the costs of
@@ -268,7 +254,7 @@ func solveGrid(pr *Problem, taus []float64, s *Settings) ([]*Solution, error) {
 		return out, nil
 	}
 	// Validate and build the table once; only the data rows' costs depend
-	// on tau.
+	// on tau (and, when ordered, the bounds of the ordering rows).
 	q := *pr
 	q.Tau = taus[order[0]]
 	for _, tau := range taus {
@@ -277,11 +263,28 @@ func solveGrid(pr *Problem, taus []float64, s *Settings) ([]*Solution, error) {
 			break
 		}
 	}
+	nG, p := len(pr.G), pr.X.Cols
+	if s.Ordered {
+		// p ordering rows after the problem's own constraints; order sets
+		// their signs and bounds at each step.
+		q.G = slices.Grow(slices.Clip(pr.G), p)
+		q.H = append(slices.Clip(pr.H), make([]float64, p)...)
+		for j := range p {
+			g := make([]float64, p)
+			g[j] = 1
+			q.G = append(q.G, g)
+		}
+	}
 	if err := q.validate(); err != nil {
 		return nil, err
 	}
 	t := newTable(&q)
-	if _, err := coldBasis(t); err != nil {
+	// base is the table without the ordering rows, for the first tau.
+	base := t
+	if s.Ordered {
+		base = t.firstHard(nG)
+	}
+	if _, err := coldBasis(base); err != nil {
 		return nil, err
 	}
 	// Start at the tau nearest the median and walk outwards both ways.
@@ -291,13 +294,13 @@ func solveGrid(pr *Problem, taus []float64, s *Settings) ([]*Solution, error) {
 			mid = k
 		}
 	}
-	one := func(k int, from *Solution, cr *carry) (*Solution, error) {
+	one := func(tab *table, k int, from *Solution, cr *carry) (*Solution, error) {
 		q.Tau = taus[order[k]]
-		t.setTau(&q)
-		return solveOn(t, &q, s, from, cr)
+		tab.setTau(&q)
+		return solveOn(tab, &q, s, from, cr)
 	}
 	// Each solve also classifies the rows for the next tau (cr.ahead).
-	n, p := pr.X.Rows(), t.p()
+	n := pr.X.Rows()
 	aheadOf := func(k, dir int, before []float64) *ahead {
 		if k+dir < 0 || k+dir >= len(order) {
 			return nil
@@ -308,24 +311,31 @@ func solveGrid(pr *Problem, taus []float64, s *Settings) ([]*Solution, error) {
 		}
 		return ah
 	}
-	cr := &carry{ahead: aheadOf(mid, 1, nil)}
-	first, err := one(mid, s.Start, cr)
+	dirs := []int{1, -1}
+	if mid == len(order)-1 {
+		dirs = []int{-1, 1} // nothing above: classify for the side below
+	}
+	cr := &carry{ahead: aheadOf(mid, dirs[0], nil)}
+	first, err := one(base, mid, s.Start, cr)
 	if err != nil {
-		return nil, err
+		return nil, fmt.Errorf("tau %g: %w", taus[order[mid]], err)
 	}
 	out[order[mid]] = first
-	for _, dir := range []int{1, -1} {
+	for d, dir := range dirs {
 		prev := first
-		if dir < 0 {
+		if d > 0 {
 			// Back at the median: the rows were classified for the other
 			// side.
 			cr.guess, cr.ready = first.Coef, nil
 		}
 		for k := mid + dir; k >= 0 && k < len(order); k += dir {
 			cr.ahead = aheadOf(k, dir, prev.Coef)
-			sol, err := one(k, prev, cr)
+			if s.Ordered {
+				t.order(nG, dir, prev.Coef)
+			}
+			sol, err := one(t, k, prev, cr)
 			if err != nil {
-				return nil, err
+				return nil, fmt.Errorf("tau %g: %w", taus[order[k]], err)
 			}
 			out[order[k]] = sol
 			prev = sol
