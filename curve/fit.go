@@ -171,6 +171,7 @@ type config struct {
 	seed       uint64
 	workers    int
 	prog       *progress
+	selectRows int // SelectRows; tests lower it
 }
 
 // maxDegree bounds Settings.Degree; higher degrees buy nothing for growth
@@ -184,7 +185,7 @@ func (s *Settings) resolve() (*config, error) {
 	bad := func(format string, args ...any) (*config, error) {
 		return nil, fmt.Errorf("%w: "+format, append([]any{ErrSettings}, args...)...)
 	}
-	c := &config{seed: s.Seed, medianOnly: s.MedianOnly, prog: &progress{w: s.Progress}}
+	c := &config{seed: s.Seed, medianOnly: s.MedianOnly, prog: &progress{w: s.Progress}, selectRows: SelectRows}
 
 	cent := s.Centiles
 	if cent == nil {

@@ -91,7 +91,13 @@ func solveOn(t *table, pr *Problem, s *Settings, start *Solution, cr *carry) (*S
 	var err error
 	if method != Simplex && !s.NoPreprocess && n > PreprocessRows {
 		m := coldMiddle(n, t.p())
-		if basis != nil && cr.guess == nil && !nearStart(t, n, pr.Tau, start.Coef) {
+		// A neighbour far away in tau (a coarse grid) leaves a band as wide
+		// as the shift between the two; a cold start is cheaper then.
+		guess := cr.guess
+		if guess == nil && basis != nil {
+			guess = start.Coef
+		}
+		if basis != nil && !nearStart(t, n, pr.Tau, guess) {
 			basis = nil
 		}
 		if basis == nil {
