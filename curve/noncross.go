@@ -66,10 +66,16 @@ const orderTol = 1e-9
 // (solver.Settings.Ordered). The two halves of the grid, below and above
 // the median, are solved at the same time, each from the median.
 func fitGrid(pl *pool, m *model, y, w []float64, lambda float64, taus []float64, mode string, median *solver.Solution) ([][]float64, error) {
-	return fitGridOn(pl, m.x, m.pen, y, w, lambda, taus, mode, median)
+	return fitGridWith(pl, m.x, m.pen, y, w, lambda, taus, mode, median, nil)
 }
 
 func fitGridOn(pl *pool, x, pen *solver.Design, y, w []float64, lambda float64, taus []float64, mode string, median *solver.Solution) ([][]float64, error) {
+	return fitGridWith(pl, x, pen, y, w, lambda, taus, mode, median, nil)
+}
+
+// fitGridWith is fitGridOn that calls solved, if not nil, after each tau is
+// solved (the median twice, once by each half).
+func fitGridWith(pl *pool, x, pen *solver.Design, y, w []float64, lambda float64, taus []float64, mode string, median *solver.Solution, solved func(float64)) ([][]float64, error) {
 	mid := slices.Index(taus, 0.5)
 	if mid < 0 {
 		panic("curve: tau grid without the median")
@@ -83,7 +89,7 @@ func fitGridOn(pl *pool, x, pen *solver.Design, y, w []float64, lambda float64, 
 	halves := [2][]float64{taus[:mid+1], taus[mid:]}
 	err := parallel(2, func(h int) error {
 		half := halves[h]
-		sols, err := pl.grid(pr, half, &solver.Settings{Start: median, Ordered: constrain})
+		sols, err := pl.grid(pr, half, &solver.Settings{Start: median, Ordered: constrain, Solved: solved})
 		if err != nil {
 			return err
 		}

@@ -148,7 +148,8 @@ func fitStratum(pl *pool, r *rows, c *config) (*Stratum, error) {
 	flags := append(chartFlags(c.chart, windows, c.guardMin), dropped...)
 	c.prog.printf("stratum %q: %d interior knots, lambda %.4g (%s); fitting %d centile curves",
 		r.name, ch.smooth.InteriorKnots, ch.smooth.Lambda, ch.smooth.Criterion, len(taus))
-	coef, err := fitGrid(pl, m, r.y, r.w, ch.smooth.Lambda, taus, c.nonCross, ch.median)
+	eta := c.prog.eta(r.name, len(taus))
+	coef, err := fitGridWith(pl, m.x, m.pen, r.y, r.w, ch.smooth.Lambda, taus, c.nonCross, ch.median, eta.tick)
 	if err != nil {
 		return nil, err
 	}

@@ -115,6 +115,10 @@ type Settings struct {
 	// below it. With basis functions that are non-negative and sum to one
 	// (B-splines) the fitted curves then never cross; see SolveGrid.
 	Ordered bool
+	// Solved, if not nil, is called by SolveGrid after each tau is solved
+	// and verified, from the calling goroutine, with that tau; a caller
+	// can report progress with it.
+	Solved func(tau float64)
 }
 
 // SimplexRows is the problem size (rows) below which Auto uses the simplex

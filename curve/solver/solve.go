@@ -327,6 +327,9 @@ func solveGrid(pr *Problem, taus []float64, s *Settings) ([]*Solution, error) {
 		return nil, fmt.Errorf("tau %g: %w", taus[order[mid]], err)
 	}
 	out[order[mid]] = first
+	if s.Solved != nil {
+		s.Solved(taus[order[mid]])
+	}
 	for d, dir := range dirs {
 		prev := first
 		if d > 0 {
@@ -345,6 +348,9 @@ func solveGrid(pr *Problem, taus []float64, s *Settings) ([]*Solution, error) {
 			}
 			out[order[k]] = sol
 			prev = sol
+			if s.Solved != nil {
+				s.Solved(taus[order[k]])
+			}
 		}
 	}
 	return out, nil
