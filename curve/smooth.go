@@ -501,43 +501,13 @@ func folds(r *rows, k int, seed uint64) ([]int, error) {
 	return fold, nil
 }
 
-// fitEach solves the unconstrained fits at taus (taus[0] first, each later
-// one warm-started from the nearest already solved) and returns them in the
-// order of taus.
+// fitEach solves the unconstrained fits at taus (one warm-started grid
+// from the tau nearest the median, solver.SolveGrid) and returns them in
+// the order of taus.
 func fitEach(pl *pool, x *solver.Design, y, w []float64, pen *solver.Design, lambda float64, taus []float64) ([]*solver.Solution, error) {
-	out := make([]*solver.Solution, len(taus))
-	idx := make([]int, len(taus))
-	for i := range idx {
-		idx[i] = i
+	p := &solver.Problem{Y: y, X: x, W: w}
+	if lambda > 0 && pen != nil {
+		p.Lambda, p.Penalty = lambda, pen
 	}
-	// Visit by distance from the first tau so each start is a neighbour.
-	slices.SortStableFunc(idx, func(a, b int) int {
-		da, db := math.Abs(taus[a]-taus[0]), math.Abs(taus[b]-taus[0])
-		switch {
-		case da < db:
-			return -1
-		case da > db:
-			return 1
-		}
-		return 0
-	})
-	for _, i := range idx {
-		var start *solver.Solution
-		bestD := math.Inf(1)
-		for j, s := range out {
-			if s != nil && math.Abs(taus[j]-taus[i]) < bestD {
-				start, bestD = s, math.Abs(taus[j]-taus[i])
-			}
-		}
-		p := &solver.Problem{Y: y, X: x, W: w, Tau: taus[i]}
-		if lambda > 0 && pen != nil {
-			p.Lambda, p.Penalty = lambda, pen
-		}
-		s, err := pl.solve(p, start)
-		if err != nil {
-			return nil, fmt.Errorf("tau %g: %w", taus[i], err)
-		}
-		out[i] = s
-	}
-	return out, nil
+	return pl.grid(p, taus, nil)
 }
