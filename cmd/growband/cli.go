@@ -7,8 +7,6 @@ import (
 	"io"
 	"runtime/debug"
 	"strings"
-
-	"growband/internal/cohort"
 )
 
 const usageTop = `usage: growband <command> [arguments]
@@ -39,24 +37,8 @@ var commands = map[string]command{
 	"score":   runScore,
 	"chart":   runChart,
 	"check":   runCheck,
-	"compare": adapt("compare", cohort.RunCompare),
+	"compare": runCompare,
 	"serve":   runServe,
-}
-
-// adapt maps the help and usage errors of a subcommand that lives in its own
-// package onto this command's.
-func adapt(name string, c command) command {
-	return func(args []string, stdout, stderr io.Writer) error {
-		err := c(args, stdout, stderr)
-		var u *cohort.UsageError
-		switch {
-		case errors.Is(err, flag.ErrHelp):
-			return errHelp
-		case errors.As(err, &u):
-			return usagef(name, "%v", err)
-		}
-		return err
-	}
 }
 
 // errHelp is returned after a usage text was shown on request; it means

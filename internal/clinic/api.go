@@ -78,6 +78,7 @@ type itemJSON struct {
 	Birth     *string  `json:"birth"`
 	Measured  *string  `json:"measured"`
 	Value     *float64 `json:"value"`
+	Child     *string  `json:"child"`
 }
 
 // decodeError turns an encoding/json error into an *inputError naming the
@@ -108,7 +109,7 @@ func decodeError(err error, prefix string) error {
 		if u, err := strconv.Unquote(name); err == nil && u != "" {
 			name = u
 		}
-		return fieldErr(prefix+name, "unknown field; known: reference, stratum, age, birth, measured, value")
+		return fieldErr(prefix+name, "unknown field; known: reference, stratum, age, birth, measured, value, child")
 	}
 	return fieldErr(bodyField, "%v", err)
 }
@@ -134,6 +135,9 @@ func decodeItem(raw []byte, prefix string) (*measurement, error) {
 	}
 	if it.Stratum != nil {
 		m.Stratum = *it.Stratum
+	}
+	if it.Child != nil {
+		m.Child = *it.Child
 	}
 	if it.Value == nil {
 		return nil, fieldErr(prefix+"value", "missing: the measurement is required")
@@ -241,6 +245,7 @@ func (h *handler) handleScore(w http.ResponseWriter, r *http.Request) {
 			return
 		}
 	}
+	h.cat.addChanges(items, out)
 	if err := h.audit.record("api", out...); err != nil {
 		writeAuditError(w, err)
 		return
