@@ -87,7 +87,7 @@ type model struct {
 
 func newModel(r *rows, interior []float64, degree, order int) (*model, error) {
 	n := len(r.t)
-	knots, err := spline.Clamped(r.t[0], r.t[n-1], interior, degree)
+	knots, err := spline.Clamped(r.lo[1], r.hi[1], interior, degree)
 	if err != nil {
 		return nil, fmt.Errorf("%w: %w", ErrData, err)
 	}
@@ -159,13 +159,13 @@ type candidate struct {
 // knotCandidates (counts giving the same number of distinct knots merged).
 func knotSets(r *rows, c *config) ([][]float64, error) {
 	n := len(r.t)
-	lo, hi := r.t[0], r.t[n-1]
+	lo, hi := r.lo[1], r.hi[1]
 	var sets [][]float64
 	switch {
 	case c.knotT != nil:
 		for i, k := range c.knotT {
 			if !(k > lo && k < hi) {
-				return nil, fmt.Errorf("%w: knot age %v outside the age range (%v, %v)", ErrSettings, c.knotAges[i], r.age[0], r.age[n-1])
+				return nil, fmt.Errorf("%w: knot age %v outside the age range (%v, %v)", ErrSettings, c.knotAges[i], r.lo[0], r.hi[0])
 			}
 		}
 		sets = [][]float64{c.knotT}

@@ -72,10 +72,13 @@ func fitStrata(groups []*rows, c *config) ([]Stratum, error) {
 // bands.
 func fitStratum(pl *pool, r *rows, c *config) (*Stratum, error) {
 	n := len(r.y)
-	c.prog.printf("stratum %q: %d rows, choosing smoothness", r.name, n)
-	ch, err := chooseSmoothness(pl, r, c)
-	if err != nil {
-		return nil, err
+	ch := c.chosen[r.name]
+	if ch == nil {
+		c.prog.printf("stratum %q: %d rows, choosing smoothness", r.name, n)
+		var err error
+		if ch, err = chooseSmoothness(pl, r, c); err != nil {
+			return nil, err
+		}
 	}
 	m := ch.model
 	windows := guardWindows(r, c.windows, c.scale)
@@ -90,8 +93,8 @@ func fitStratum(pl *pool, r *rows, c *config) (*Stratum, error) {
 	st := &Stratum{
 		Name:       r.name,
 		N:          n,
-		AgeMin:     r.age[0],
-		AgeMax:     r.age[n-1],
+		AgeMin:     r.lo[0],
+		AgeMax:     r.hi[0],
 		Knots:      slices.Clone(m.knots),
 		Taus:       taus,
 		Coef:       coef,

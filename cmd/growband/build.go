@@ -81,10 +81,11 @@ type built struct {
 	table    *intake.Table
 	ref      *curve.Reference
 	diag     *curve.Diagnostics
-	refitted bool     // a second fit followed the implausibility screen
-	dir      string   // output directory
-	files    []string // files written, relative to dir
-	notes    []string // remarks worth the user's attention
+	refitted bool                // the implausibility screen ran before the fit
+	scales   []curve.ScaleChoice // candidate age scales, when chosen from the data
+	dir      string              // output directory
+	files    []string            // files written, relative to dir
+	notes    []string            // remarks worth the user's attention
 	elapsed  time.Duration
 }
 
@@ -101,26 +102,22 @@ func build(plan *intake.Plan, dir string, prog progress) (*built, error) {
 	if len(t.Rows) == 0 {
 		return nil, fmt.Errorf("%s: no usable rows (all %d excluded; see the reasons with a build of fewer limits)", t.Name, t.Total)
 	}
-	settings := fitSettings(plan, t, prog)
 	data := tableData(t)
-	ref, err := curve.Fit(data, settings)
+	res, err := curve.Build(data, buildSettings(plan, prog))
+	if errors.Is(err, curve.ErrEdge) {
+		return nil, fmt.Errorf("%s: %w\n(nothing written; a larger sample, a stated fit.age_range or another fit.age_scale may help; fit.accept_edge_problems = true builds anyway)", plan.Name, err)
+	}
 	if err != nil {
-		return nil, fmt.Errorf("%s: fit: %w", plan.Name, err)
+		return nil, fmt.Errorf("%s: %w", plan.Name, err)
 	}
-	if lim := plan.Plausible.Z; lim > 0 {
-		idx, detail := implausible(ref, data, lim)
-		if len(idx) > 0 {
-			prog.printf("%d rows with |z| > %g against the first fit excluded; fitting again", len(idx), lim)
-			t.Exclude(idx, intake.ReasonImplausible, detail)
-			data = tableData(t)
-			if ref, err = curve.Fit(data, settings); err != nil {
-				return nil, fmt.Errorf("%s: second fit: %w", plan.Name, err)
-			}
-			b.refitted = true
-		}
+	excludeBuilt(t, res.Excluded)
+	b.ref = res.Reference
+	b.refitted = plan.Plausible.Z > 0
+	b.scales = res.Scales
+	for _, p := range res.Problems {
+		b.notes = append(b.notes, "accepted edge problem: "+p.String())
 	}
-	b.ref = ref
-	if b.diag, err = curve.Check(ref, data, nil); err != nil {
+	if b.diag, err = curve.Check(b.ref, tableData(t), nil); err != nil {
 		return nil, fmt.Errorf("diagnostics: %w", err)
 	}
 	b.elapsed = time.Since(start)
@@ -133,95 +130,82 @@ func build(plan *intake.Plan, dir string, prog progress) (*built, error) {
 	return b, nil
 }
 
-// fitSettings turns the plan's [fit] and [measure] tables into curve
-// settings.
-func fitSettings(plan *intake.Plan, t *intake.Table, prog progress) *curve.Settings {
+// buildSettings turns the plan's [fit], [measure] and [plausible] tables
+// into the settings of curve.Build.
+func buildSettings(plan *intake.Plan, prog progress) *curve.BuildSettings {
 	f := plan.Fit
-	s := &curve.Settings{
-		Centiles:  slices.Clone(f.Centiles),
-		Bootstrap: f.Bootstrap,
-		Seed:      uint64(f.Seed),
-		Progress:  prog.w,
-		Measure:   plan.Measure.Name,
-		Unit:      plan.Measure.Unit,
-		AgeUnit:   plan.Measure.AgeUnit,
+	s := &curve.BuildSettings{
+		Fit: curve.Settings{
+			Centiles:  slices.Clone(f.Centiles),
+			Bootstrap: f.Bootstrap,
+			Seed:      uint64(f.Seed),
+			Progress:  prog.w,
+			Measure:   plan.Measure.Name,
+			Unit:      plan.Measure.Unit,
+			AgeUnit:   plan.Measure.AgeUnit,
+			AgeRange:  [2]float64{f.AgeRange.Min, f.AgeRange.Max},
+		},
+		ScreenZ:     plan.Plausible.Z,
+		AcceptEdges: f.AcceptEdges,
 	}
+	if s.ScreenZ == 0 {
+		s.ScreenZ = curve.NoScreen
+	}
+	fs := &s.Fit
 	switch {
 	case f.Knots.At != nil:
-		s.KnotAges = slices.Clone(f.Knots.At)
+		fs.KnotAges = slices.Clone(f.Knots.At)
 	case f.Knots.Auto:
 	case f.Knots.Count == 0:
-		s.Knots = curve.NoKnots
+		fs.Knots = curve.NoKnots
 	default:
-		s.Knots = f.Knots.Count
+		fs.Knots = f.Knots.Count
 	}
 	switch {
 	case f.Penalty.Auto:
-		s.Penalty = curve.PenaltyAuto
+		fs.Penalty = curve.PenaltyAuto
 	case f.Penalty.Lambda == 0:
-		s.Penalty = curve.PenaltyNone
+		fs.Penalty = curve.PenaltyNone
 	default:
-		s.Penalty, s.Lambda = curve.PenaltyFixed, f.Penalty.Lambda
+		fs.Penalty, fs.Lambda = curve.PenaltyFixed, f.Penalty.Lambda
 	}
 	switch f.AgeScale.Kind {
+	case "auto":
+		fs.AgeScale = curve.AgeScale{Kind: curve.ScaleAuto}
 	case "log":
-		shift := f.AgeScale.Shift
-		if f.AgeScale.AutoShift {
-			shift = autoShift(t, plan.Measure.AgeUnit)
-			prog.printf("age scale log(age + %.4g)", shift)
-		}
-		s.AgeScale = curve.AgeScale{Kind: curve.ScaleLog, Shift: shift}
+		fs.AgeScale = curve.AgeScale{Kind: curve.ScaleLog, Shift: f.AgeScale.Shift}
+		s.AutoLogShift = f.AgeScale.AutoShift
 	case "power":
-		s.AgeScale = curve.AgeScale{Kind: curve.ScalePower, Power: f.AgeScale.Power}
+		fs.AgeScale = curve.AgeScale{Kind: curve.ScalePower, Power: f.AgeScale.Power}
 	}
 	return s
 }
 
-// daysPerMonth converts the automatic log-age offset between units
-// (30.4375 = 365.25/12, the intake convention).
-const daysPerMonth = 365.25 / 12
-
-// autoShift is the offset of fit.age_offset = "auto": one month in the
-// plan's age unit, plus the youngest age's distance below zero, so that
-// log(age + shift) spreads the first months without an extreme at birth.
-func autoShift(t *intake.Table, unit string) float64 {
-	month := 1.0
-	switch unit {
-	case "days":
-		month = daysPerMonth
-	case "weeks":
-		month = daysPerMonth / 7
-	case "years":
-		month = 1.0 / 12
+// excludeBuilt moves the rows curve.Build left out (indices into t.Rows at
+// the call) to t's exclusions with their reasons.
+func excludeBuilt(t *intake.Table, ex []curve.Exclusion) {
+	var ageIdx, implIdx []int
+	var ageDetail, implDetail []string
+	for _, e := range ex {
+		if e.Reason == curve.ExcludedAgeRange {
+			ageIdx, ageDetail = append(ageIdx, e.Row), append(ageDetail, e.Detail)
+		}
 	}
-	lo := 0.0
-	for i := range t.Rows {
-		lo = min(lo, t.Rows[i].Age)
+	for _, e := range ex {
+		if e.Reason == curve.ExcludedImplausible {
+			// Rows before it that left for their age no longer count.
+			shift, _ := slices.BinarySearch(ageIdx, e.Row)
+			implIdx, implDetail = append(implIdx, e.Row-shift), append(implDetail, e.Detail)
+		}
 	}
-	return tidy(month - lo)
+	t.Exclude(ageIdx, intake.ReasonAgeRange, ageDetail)
+	t.Exclude(implIdx, intake.ReasonImplausible, implDetail)
 }
 
 // tableData returns the used rows of t as fit data.
 func tableData(t *intake.Table) *curve.Data {
 	age, value, weight, stratum, subject := t.Columns()
 	return &curve.Data{Age: age, Value: value, Weight: weight, Stratum: stratum, Subject: subject}
-}
-
-// implausible returns the rows of d with |z| > lim under r, with their
-// z-scores as detail text.
-func implausible(r *curve.Reference, d *curve.Data, lim float64) ([]int, []string) {
-	// Rows the reference cannot score are not implausible, just unscored;
-	// for the training rows themselves this does not happen.
-	scores, _ := r.ScoreAll(nil, d)
-	var idx []int
-	var detail []string
-	for i, s := range scores {
-		if math.Abs(s.Z) > lim {
-			idx = append(idx, i)
-			detail = append(detail, fmt.Sprintf("z = %.2f", s.Z))
-		}
-	}
-	return idx, detail
 }
 
 // writeFiles writes the reference, tables, charts and report into b.dir.
@@ -340,7 +324,7 @@ func (b *built) summary(w io.Writer) error {
 		fmt.Fprintf(tw, "  %s\t%d\n", c.Reason, c.N)
 	}
 	tw.Flush()
-	fmt.Fprintf(w, "\n%s, %s\n", refTitle(b.ref), fitPasses(b.refitted))
+	fmt.Fprintf(w, "\n%s, %s, age scale %s%s\n", refTitle(b.ref), fitPasses(b.refitted), b.ref.AgeScale, scaleHow(b.scales))
 	tw = tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
 	fmt.Fprintln(tw, "stratum\tn\tages\tinterior knots\tlambda\tchosen by\tsize guard")
 	for _, st := range b.ref.Strata {
@@ -361,9 +345,17 @@ func (b *built) summary(w io.Writer) error {
 
 func fitPasses(refitted bool) string {
 	if refitted {
-		return "fitted twice (after the implausibility screen)"
+		return "fitted after the implausibility screen"
 	}
-	return "fitted once (no implausible rows, or screen off)"
+	return "fitted without an implausibility screen"
+}
+
+// scaleHow says how the age scale was chosen.
+func scaleHow(sc []curve.ScaleChoice) string {
+	if sc == nil {
+		return " (from the plan)"
+	}
+	return fmt.Sprintf(" (chosen from %d candidates)", len(sc))
 }
 
 // refTitle names the reference's measure and units.
@@ -544,4 +536,20 @@ func centileFigure(r *curve.Reference, st *curve.Stratum, pts *render.Points, ch
 		c.Curves = append(c.Curves, cv)
 	}
 	return render.CentileChart(c)
+}
+
+// implausible returns the rows of d with |z| > lim under r, with their
+// z-scores as detail text.
+func implausible(r *curve.Reference, d *curve.Data, lim float64) ([]int, []string) {
+	// Rows the reference cannot score are not implausible, just unscored.
+	scores, _ := r.ScoreAll(nil, d)
+	var idx []int
+	var detail []string
+	for i, s := range scores {
+		if math.Abs(s.Z) > lim {
+			idx = append(idx, i)
+			detail = append(detail, fmt.Sprintf("z = %.2f", s.Z))
+		}
+	}
+	return idx, detail
 }

@@ -102,6 +102,9 @@ name = "weight"
 unit = "kg"
 age_unit = "months"
 
+[fit]
+accept_edge_problems = true
+
 [table]
 from = 0
 to = 60
