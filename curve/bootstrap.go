@@ -6,38 +6,68 @@ import (
 	"math"
 	"math/rand/v2"
 	"slices"
+	"sort"
 	"sync"
 	"sync/atomic"
+
+	"growband/curve/solver"
 )
 
-// Bootstrap bands.
+// Band is a bootstrap pointwise 95% interval for one chart centile on an age
+// grid, with the percentile-interval trust check |bias|/SE.
 //
 // Each replicate draws, with replacement, as many whole subjects as the
 // stratum has (when Data.Subject is given, so that the dependence between a
 // child's repeated measurements is kept) or as many rows (otherwise), and
-// refits the chart centiles with the point estimate's knots and lambda: the
-// median first, then outward with the same non-crossing mode. A row drawn m
-// times enters with weight m*w instead of being copied. The knots and lambda
-// are held fixed, so the bands show the sampling variation of the curves
-// given the chosen smoothness, not that of the choice. The interval at each
-// band age is the percentile interval (2.5% and 97.5% quantiles of the
-// replicate curves, Hyndman & Fan definition 7) of Efron & Tibshirani
-// (1993).
+// refits each chart centile on its own with the point estimate's knots and
+// without the roughness penalty. A row drawn m times enters with weight m*w
+// instead of being copied. The interval at each band age is the percentile
+// interval (2.5% and 97.5% quantiles of the replicate curves, Hyndman & Fan
+// definition 7) of Efron & Tibshirani (1993).
+//
+// Why unpenalised: a penalised fit is biased towards a straight line, and
+// the bootstrap reproduces the variance of an estimate but not its bias, so
+// bands around penalised replicates miss the true centile more often than
+// 5% (the issue behind this: 88.5% measured by a user; 90.5% in our
+// simulation of a square-root growth truth, against 91.7% unpenalised).
+// Dropping the penalty in the replicates undersmooths them, which trades
+// the bias for variance the bands do show (Hall 1992). Fitting each centile
+// unconstrained is what a pointwise band of one centile needs: crossing
+// replicates of different centiles do not matter there. The knots are held
+// fixed, so the bands show the sampling variation given the chosen knots,
+// not that of the choice.
+//
+// Replicate fits are exact and cheap: each starts from the full data's
+// unpenalised fit and pools the rows far from it (see bootSolve), which
+// made 200 replicates at n = 20,000 about ten times faster
+// (BenchmarkBootstrap200x2e4).
 //
 // Replicate r uses its own PCG stream (math/rand/v2) seeded from
 // Settings.Seed, the stratum name and r, so the bands do not depend on the
 // number of workers or the order in which replicates finish.
 //
 // The percentile interval presumes the bootstrap distribution is centred on
-// the estimate. Band.BiasToSE reports |mean of replicates - estimate| /
-// (replicate SD) per age, and Band.Unstable marks a band where it exceeds
-// BiasSELimit somewhere.
+// the estimate it resamples from (the full data's unpenalised fit).
+// BiasToSE reports |mean of replicates - that estimate| / (replicate SD)
+// per age, and Unstable marks a band where it exceeds BiasSELimit
+// somewhere: the band is then less trustworthy than its width suggests.
 //
 // References:
 //   - Efron B, Tibshirani R J (1993). An Introduction to the Bootstrap.
 //     Chapman & Hall, New York.
+//   - Hall P (1992). Effect of bias estimation on coverage accuracy of
+//     bootstrap confidence intervals for a probability density. Annals of
+//     Statistics 20, 675–694 (from memory).
 //   - Hyndman R J, Fan Y (1996). Sample quantiles in statistical packages.
 //     The American Statistician 50, 361–365.
+type Band struct {
+	Tau      float64   `json:"tau"`
+	Ages     []float64 `json:"ages"`
+	Lo       []float64 `json:"lo"`
+	Hi       []float64 `json:"hi"`
+	BiasToSE []float64 `json:"bias_to_se"`
+	Unstable bool      `json:"unstable"` // some |bias|/SE exceeds BiasSELimit
+}
 
 // BiasSELimit is the |bias|/SE above which a bootstrap band is marked
 // Unstable. Efron & Tibshirani (1993, section 10.6, from memory) treat a bias
@@ -84,15 +114,19 @@ func bootstrapBands(pl *pool, r *rows, m *model, st *Stratum, c *config) ([]Band
 		return v
 	}
 
-	taus := slices.Clone(st.Chart)
-	if !slices.Contains(taus, 0.5) {
-		taus = append(taus, 0.5)
-		slices.Sort(taus)
+	// Replicates refit each chart centile on its own, unpenalised: the
+	// guesses are the full data's unpenalised fits, the spread of each row
+	// the point estimate's interquartile range there.
+	taus := st.Chart
+	guess := make([][]float64, len(taus))
+	for k, tau := range taus {
+		sol, err := pl.solve(&solver.Problem{Y: r.y, X: m.x, W: r.w, Tau: tau}, nil)
+		if err != nil {
+			return nil, fmt.Errorf("unpenalised fit at tau %g: %w", tau, err)
+		}
+		guess[k] = sol.Coef
 	}
-	chartAt := make([]int, len(st.Chart)) // index of each chart tau in taus
-	for k, tau := range st.Chart {
-		chartAt[k] = slices.Index(taus, tau)
-	}
+	scale := rowSpread(r, m, st)
 
 	h := fnv.New64a()
 	h.Write([]byte(r.name))
@@ -136,13 +170,25 @@ func bootstrapBands(pl *pool, r *rows, m *model, st *Stratum, c *config) ([]Band
 						w = append(w, r.w[i]*float64(k))
 					}
 				}
-				coef, err := fitGridOn(pl, subset(m.x, idx), m.pen, y, w, st.Smoothness.Lambda, taus, c.nonCross, nil)
+				xs := subset(m.x, idx)
+				sc := make([]float64, len(idx))
+				for j, i := range idx {
+					sc[j] = scale[i]
+				}
+				coef := make([][]float64, len(taus))
+				var err error
+				for k, tau := range taus {
+					if coef[k], err = bootSolve(pl, xs, y, w, tau, guess[k], sc); err != nil {
+						err = fmt.Errorf("tau %g: %w", tau, err)
+						break
+					}
+				}
 				if err != nil {
 					errs[rep] = err
 				} else {
 					v := make([][]float64, len(st.Chart))
-					for k, at := range chartAt {
-						v[k] = values(coef[at])
+					for k := range taus {
+						v[k] = values(coef[k])
 					}
 					reps[rep] = v
 				}
@@ -173,8 +219,7 @@ func bootstrapBands(pl *pool, r *rows, m *model, st *Stratum, c *config) ([]Band
 	bands := make([]Band, len(st.Chart))
 	col := make([]float64, len(good))
 	for k, tau := range st.Chart {
-		ti := slices.Index(st.Taus, tau)
-		est := values(st.Coef[ti])
+		est := values(guess[k])
 		bd := Band{
 			Tau:      tau,
 			Ages:     slices.Clone(ages),
@@ -232,4 +277,47 @@ func biasToSE(bias, sd float64) float64 {
 		return 0
 	}
 	return math.MaxFloat64
+}
+
+// At returns the band's interval at age, linear between the band's ages;
+// ok is false for an age outside them (or NaN).
+func (b *Band) At(age float64) (lo, hi float64, ok bool) {
+	n := len(b.Ages)
+	if n == 0 || !(age >= b.Ages[0] && age <= b.Ages[n-1]) || len(b.Lo) != n || len(b.Hi) != n {
+		return 0, 0, false
+	}
+	i := sort.SearchFloat64s(b.Ages, age)
+	if b.Ages[i] == age || i == 0 {
+		return b.Lo[i], b.Hi[i], true
+	}
+	f := (age - b.Ages[i-1]) / (b.Ages[i] - b.Ages[i-1])
+	return b.Lo[i-1] + f*(b.Lo[i]-b.Lo[i-1]), b.Hi[i-1] + f*(b.Hi[i]-b.Hi[i-1]), true
+}
+
+// rowSpread returns each row's interquartile range under the fitted curves
+// of st (the 0.25 and 0.75 grid taus), with non-positive ones replaced by
+// the median positive one (or 1 when there is none).
+func rowSpread(r *rows, m *model, st *Stratum) []float64 {
+	q25, q75 := slices.Index(st.Taus, 0.25), slices.Index(st.Taus, 0.75)
+	out := make([]float64, len(r.y))
+	var pos []float64
+	for i := range out {
+		if q25 >= 0 && q75 >= 0 {
+			out[i] = m.x.Dot(i, st.Coef[q75]) - m.x.Dot(i, st.Coef[q25])
+		}
+		if out[i] > 0 {
+			pos = append(pos, out[i])
+		}
+	}
+	fill := 1.0
+	if len(pos) > 0 {
+		slices.Sort(pos)
+		fill = pos[len(pos)/2]
+	}
+	for i, v := range out {
+		if !(v > 0) {
+			out[i] = fill
+		}
+	}
+	return out
 }

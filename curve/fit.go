@@ -36,6 +36,32 @@ const (
 	CriterionCV    = "cv"    // K-fold cross-validated check loss
 	CriterionFixed = "fixed" // recorded when nothing was chosen
 
+)
+
+// Non-crossing modes (Settings.NonCross). A curve is
+// Q_tau(t) = sum_j B_j(t) b_tau,j with B-spline functions B_j >= 0 that sum
+// to one at every t, so coefficients ordered across tau (b_tau <= b_tau'
+// componentwise) give curves ordered at every age:
+//
+//	Q_tau'(t) - Q_tau(t) = sum_j B_j(t) (b_tau',j - b_tau,j) >= 0.
+//
+// The condition is sufficient, not necessary, and survives rounding.
+// NonCrossConstrain fits the median, then each tau outward constrained by
+// its inner neighbour (b_tau >= b_prev above the median, <= below): the
+// stepwise scheme of Wu & Liu (2009) with this sufficient condition as the
+// constraint set, always feasible, binding only where unconstrained fits
+// would be out of order. NonCrossRearrange fits every tau unconstrained and
+// sorts each coefficient index across tau, the monotone rearrangement of
+// Chernozhukov, Fernández-Val & Galichon (2010) applied to each coefficient
+// function (it equals their value rearrangement at the two end ages).
+//
+// References:
+//   - Wu Y, Liu Y (2009). Stepwise multiple quantile regression estimation
+//     using non-crossing constraints. Statistics and Its Interface 2,
+//     299–310 (from memory).
+//   - Chernozhukov V, Fernández-Val I, Galichon A (2010). Quantile and
+//     probability curves without crossing. Econometrica 78, 1093–1125.
+const (
 	NonCrossConstrain = "constrain" // stepwise constraints outward from the median
 	NonCrossRearrange = "rearrange" // unconstrained fits, coefficients sorted across tau
 )

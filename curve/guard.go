@@ -9,9 +9,10 @@ import (
 	"growband/curve/solver"
 )
 
-// Sample-size guard.
+// Flag records a sample-size guard decision: too few observations beyond the
+// centile Tau in the age window [AgeLo, AgeHi).
 //
-// A fitted centile tau at some age rests on the observations beyond it
+// The sample-size guard: a fitted centile tau at some age rests on the observations beyond it
 // nearby: in an age window holding n_w observations about
 // n_w * min(tau, 1-tau) are expected below (or above) the curve. When that
 // count is small the curve is set by a handful of points and its sampling
@@ -36,6 +37,13 @@ import (
 //
 // The grid taus 0.01, ..., 0.99 are always fitted, as the dense grid that
 // scoring interpolates; only chart centiles carry flags.
+type Flag struct {
+	Tau      float64 `json:"tau"`
+	AgeLo    float64 `json:"age_lo"`
+	AgeHi    float64 `json:"age_hi"`
+	Expected float64 `json:"expected"` // expected count beyond the centile
+	Action   string  `json:"action"`   // "flagged" or "dropped"
+}
 
 // extremeTaus are the grid taus beyond 0.01 and 0.99 that are fitted only
 // when the guard allows.

@@ -85,36 +85,6 @@ type LMSCurve struct {
 	S    []float64 `json:"s"`
 }
 
-// Smoothness records how the curves' flexibility was chosen.
-type Smoothness struct {
-	InteriorKnots int     `json:"interior_knots"`
-	Lambda        float64 `json:"lambda"`    // L1 difference-penalty weight
-	Order         int     `json:"order"`     // difference order of the penalty
-	Criterion     string  `json:"criterion"` // "fixed", "sic" or "cv"
-	Score         float64 `json:"score"`     // criterion value at the choice
-}
-
-// Flag records a sample-size guard decision: too few observations beyond the
-// centile Tau in the age window [AgeLo, AgeHi).
-type Flag struct {
-	Tau      float64 `json:"tau"`
-	AgeLo    float64 `json:"age_lo"`
-	AgeHi    float64 `json:"age_hi"`
-	Expected float64 `json:"expected"` // expected count beyond the centile
-	Action   string  `json:"action"`   // "flagged" or "dropped"
-}
-
-// Band is a bootstrap pointwise 95% interval for one chart centile on an age
-// grid, with the percentile-interval trust check |bias|/SE.
-type Band struct {
-	Tau      float64   `json:"tau"`
-	Ages     []float64 `json:"ages"`
-	Lo       []float64 `json:"lo"`
-	Hi       []float64 `json:"hi"`
-	BiasToSE []float64 `json:"bias_to_se"`
-	Unstable bool      `json:"unstable"` // some |bias|/SE exceeds BiasSELimit
-}
-
 // Data holds measurement rows column-wise. Weight, Stratum and Subject may be
 // nil (all 1, one stratum, no subject ids).
 type Data struct {

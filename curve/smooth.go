@@ -10,7 +10,9 @@ import (
 	"growband/spline"
 )
 
-// Smoothness selection. A stratum's curves share one knot vector and one
+// Smoothness records how the curves' flexibility was chosen.
+//
+// A stratum's curves share one knot vector and one
 // penalty weight lambda. What the settings leave open is chosen by a
 // criterion summed over the median and the chart centiles (the median alone
 // with Settings.MedianOnly) in two stages:
@@ -51,6 +53,13 @@ import (
 //   - Kish L (1965). Survey Sampling. Wiley, New York.
 //   - Hastie T, Tibshirani R, Friedman J (2009). The Elements of
 //     Statistical Learning, 2nd ed. Springer, New York.
+type Smoothness struct {
+	InteriorKnots int     `json:"interior_knots"`
+	Lambda        float64 `json:"lambda"`    // L1 difference-penalty weight
+	Order         int     `json:"order"`     // difference order of the penalty
+	Criterion     string  `json:"criterion"` // "fixed", "sic" or "cv"
+	Score         float64 `json:"score"`     // criterion value at the choice
+}
 
 // knotCandidates are the interior knot counts tried when Settings.Knots is 0.
 var knotCandidates = []int{0, 1, 2, 3, 4, 5, 6, 8, 10, 12, 15, 20, 25, 30}

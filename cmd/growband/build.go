@@ -301,7 +301,7 @@ func (b *built) writeCentiles(w io.Writer) error {
 	if err != nil {
 		return err
 	}
-	return writeRowsCSV(w, cols, rows, false)
+	return writeRowsCSV(w, b.ref, cols, rows, false)
 }
 
 // stratumLabel names a stratum in messages.
@@ -415,6 +415,7 @@ type tableRow struct {
 	stratum string
 	age     float64
 	values  []float64
+	lo, hi  []float64  // bootstrap band per centile, NaN where none; nil for none at all
 	lms     *curve.LMS // nil for velocity tables or where no LMS fits
 }
 
@@ -467,6 +468,7 @@ func centileRows(r *curve.Reference, strata []*curve.Stratum, ages, centiles []f
 		}
 		for i, a := range in {
 			row := tableRow{stratum: st.Name, age: a, values: tab.Values[i]}
+			row.lo, row.hi = bandsAt(st, a, taus)
 			if l, err := r.LMS(st.Name, a); err == nil {
 				row.lms = &l
 			} else if !errors.Is(err, curve.ErrDegenerate) {
@@ -482,33 +484,94 @@ func centileRows(r *curve.Reference, strata []*curve.Stratum, ages, centiles []f
 }
 
 // writeRowsCSV writes table rows as CSV: stratum, age, one column per
-// centile named by its number, then L, M, S (left out for velocity).
-func writeRowsCSV(w io.Writer, centiles []float64, rows []tableRow, velocity bool) error {
+// centile named by its number, then L, M, S, then the bootstrap band of
+// each centile as "C_lo95" and "C_hi95" when the reference has bands. A
+// velocity table has columns named "slope of centile-C curve (UNIT/AGE)"
+// and no L, M, S or bands.
+func writeRowsCSV(w io.Writer, r *curve.Reference, centiles []float64, rows []tableRow, velocity bool) error {
 	cw := csv.NewWriter(w)
 	head := []string{"stratum", "age"}
+	bands := false
+	for _, row := range rows {
+		bands = bands || row.lo != nil
+	}
 	for _, c := range centiles {
-		head = append(head, centileName(c))
+		if velocity {
+			head = append(head, slopeName(r, c))
+		} else {
+			head = append(head, centileName(c))
+		}
 	}
 	if !velocity {
 		head = append(head, "L", "M", "S")
+		if bands {
+			for _, c := range centiles {
+				head = append(head, centileName(c)+"_lo95", centileName(c)+"_hi95")
+			}
+		}
 	}
 	cw.Write(head)
-	for _, r := range rows {
-		rec := []string{r.stratum, ageText(r.age)}
-		for _, v := range r.values {
+	for _, row := range rows {
+		rec := []string{row.stratum, ageText(row.age)}
+		for _, v := range row.values {
 			rec = append(rec, num(v))
 		}
 		if !velocity {
-			if r.lms != nil {
-				rec = append(rec, num(r.lms.L), num(r.lms.M), num(r.lms.S))
+			if row.lms != nil {
+				rec = append(rec, num(row.lms.L), num(row.lms.M), num(row.lms.S))
 			} else {
 				rec = append(rec, "", "", "")
+			}
+			if bands {
+				for j := range centiles {
+					if row.lo == nil || math.IsNaN(row.lo[j]) {
+						rec = append(rec, "", "")
+					} else {
+						rec = append(rec, num(row.lo[j]), num(row.hi[j]))
+					}
+				}
 			}
 		}
 		cw.Write(rec)
 	}
 	cw.Flush()
 	return cw.Error()
+}
+
+// slopeName heads a velocity column so that it cannot be read as a
+// velocity centile: the slope of the centile's curve in value units per age
+// unit.
+func slopeName(r *curve.Reference, c float64) string {
+	return fmt.Sprintf("slope of centile-%s curve (%s)", centileName(c), slopeUnit(r))
+}
+
+// slopeUnit is the unit of a centile curve's slope, e.g. "kg/month".
+func slopeUnit(r *curve.Reference) string {
+	u := r.Unit
+	if u == "" {
+		u = "units"
+	}
+	return u + "/" + singular(r.AgeUnit)
+}
+
+// bandsAt returns the bootstrap band of each tau at age (NaN where the
+// stratum has none for it), or nils when the stratum has no bands.
+func bandsAt(st *curve.Stratum, age float64, taus []float64) (lo, hi []float64) {
+	if len(st.Bands) == 0 {
+		return nil, nil
+	}
+	lo, hi = make([]float64, len(taus)), make([]float64, len(taus))
+	for j, tau := range taus {
+		lo[j], hi[j] = math.NaN(), math.NaN()
+		for k := range st.Bands {
+			if bd := &st.Bands[k]; math.Abs(bd.Tau-tau) <= 1e-12 {
+				if l, h, ok := bd.At(age); ok {
+					lo[j], hi[j] = l, h
+				}
+			}
+		}
+	}
+	return lo, hi
 }
 
 // centileFigure draws the centile chart of one stratum with an optional

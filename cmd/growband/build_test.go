@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -90,5 +91,46 @@ func TestBuildEdgeProblemsFail(t *testing.T) {
 	}
 	if _, err := os.Stat(filepath.Join(f.dir, "strict-out", "reference.json")); err == nil {
 		t.Error("reference.json written although the build failed")
+	}
+}
+
+// TestBuildBands builds the fixture with bootstrap replicates: centiles.csv
+// and "growband table" carry each chart centile's band, which holds the
+// centile itself, and the report summarises the bands in words.
+func TestBuildBands(t *testing.T) {
+	f := builtFixture(t)
+	plan, err := os.ReadFile(filepath.Join(f.dir, "plan.toml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	boot := strings.Replace(string(plan), "[fit]\n", "[fit]\nbootstrap = 20\nage_scale = \"identity\"\n", 1)
+	if err := os.WriteFile(filepath.Join(f.dir, "boot.toml"), []byte(boot), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	mustGB(t, f.dir, "build", "boot.toml", "--out", "boot-out", "--quiet")
+	csvText, _ := os.ReadFile(filepath.Join(f.dir, "boot-out", "centiles.csv"))
+	tableText := mustGB(t, f.dir, "table", "--ref", filepath.Join("boot-out", "reference.json"), "--ages", "6,30")
+	for name, text := range map[string]string{"centiles.csv": string(csvText), "table": tableText} {
+		head, recs := readCSV(t, text)
+		c50, lo, hi := column(t, head, "50"), column(t, head, "50_lo95"), column(t, head, "50_hi95")
+		column(t, head, "3_lo95")
+		column(t, head, "97_hi95")
+		for _, r := range recs {
+			v, _ := strconv.ParseFloat(r[c50], 64)
+			l, err1 := strconv.ParseFloat(r[lo], 64)
+			h, err2 := strconv.ParseFloat(r[hi], 64)
+			if err1 != nil || err2 != nil || !(l <= v && v <= h) {
+				t.Errorf("%s %s age %s: median %v, band [%s, %s]", name, r[0], r[1], v, r[lo], r[hi])
+			}
+		}
+	}
+	rep, _ := os.ReadFile(filepath.Join(f.dir, "boot-out", "report.html"))
+	for _, want := range []string{"<h2>Bootstrap bands</h2>", "from 20 bootstrap replicates", "whole children"} {
+		if !strings.Contains(string(rep), want) {
+			t.Errorf("report lacks %q", want)
+		}
+	}
+	if !strings.Contains(string(rep), "Every band is stable") && !strings.Contains(string(rep), "Some bands are unstable.") {
+		t.Error("report says nothing about the bands' stability")
 	}
 }
