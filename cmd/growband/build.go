@@ -114,6 +114,20 @@ func build(plan *intake.Plan, dir string, prog progress) (*built, error) {
 	b.ref = res.Reference
 	b.refitted = plan.Plausible.Z > 0
 	b.scales = res.Scales
+	if len(res.Scales) > 0 {
+		var parts []string
+		for _, c := range res.Scales {
+			switch {
+			case c.Err != "":
+				parts = append(parts, fmt.Sprintf("%s (unusable)", c.Scale))
+			case c.Problems > 0:
+				parts = append(parts, fmt.Sprintf("%s %.5g (%d edge problems)", c.Scale, c.Score, c.Problems))
+			default:
+				parts = append(parts, fmt.Sprintf("%s %.5g", c.Scale, c.Score))
+			}
+		}
+		b.notes = append(b.notes, "age scale chosen by the smoothness criterion summed over strata (lower is better; the best without edge problems wins): "+strings.Join(parts, ", "))
+	}
 	for _, p := range res.Problems {
 		b.notes = append(b.notes, "accepted edge problem: "+p.String())
 	}

@@ -66,10 +66,12 @@ const reportHTML = `<!DOCTYPE html>
 
 {{if .Bands}}<h2>Bootstrap bands</h2>
 <p>Each chart centile carries a pointwise 95% band from {{.Replicates}} bootstrap replicates
-({{.Resampled}} drawn with replacement, the curves refitted at the chosen knots without the
-roughness penalty). At each age the band is the 2.5% to 97.5% range of the replicate curves: in
-repeated samples like this one it would hold the true centile about 95 times in 100. The bands are
-columns of <code>centiles.csv</code> and of <code>growband table</code>.</p>
+({{.Resampled}} drawn with replacement, each centile refitted without the roughness penalty and,
+where the knots were chosen automatically, with more knots, so that the band is not pulled by the
+smoothing). At each age the band is that refit's curve &plusmn; 1.96 standard deviations of the
+replicate curves: in repeated samples like this one it would hold the true centile about 95 times in
+100 (93&ndash;95 in our simulations). The bands are columns of <code>centiles.csv</code> and of
+<code>growband table</code>.</p>
 <table>
 <tr><th class="l">stratum</th><th>centile</th><th>median width</th><th>widest</th><th>at age</th><th class="l">stable</th></tr>
 {{range .Bands}}<tr><td class="l">{{.Name}}</td><td>{{.Centile}}</td><td>{{.Median}}</td><td>{{.Widest}}</td><td>{{.At}}</td><td class="l{{if .Unstable}} off{{end}}">{{.Stable}}</td></tr>
