@@ -53,7 +53,7 @@ func bootSolve(pl *pool, x *solver.Design, y, w []float64, tau float64, guess, s
 	keep := int(math.Ceil(bootKeepScale * math.Sqrt(float64(p*n))))
 	keep = max(keep, bootKeepMin*p)
 	full := func() ([]float64, error) {
-		s, err := pl.solve(&solver.Problem{Y: y, X: x, W: w, Tau: tau}, nil)
+		s, err := pl.one(&solver.Problem{Y: y, X: x, W: w, Tau: tau})
 		if err != nil {
 			return nil, err
 		}
@@ -125,7 +125,7 @@ func bootSolve(pl *pool, x *solver.Design, y, w []float64, tau float64, guess, s
 		}
 		first := make([]int, len(yy))
 		d := &solver.Design{Cols: p, Width: p, First: first, Val: val}
-		s, err := pl.solve(&solver.Problem{Y: yy, X: d, W: ww, Tau: tau}, nil)
+		s, err := pl.one(&solver.Problem{Y: yy, X: d, W: ww, Tau: tau})
 		if err != nil {
 			return full()
 		}
@@ -158,4 +158,13 @@ func bootSolve(pl *pool, x *solver.Design, y, w []float64, tau float64, guess, s
 		}
 	}
 	return full()
+}
+
+// one solves the single problem p at p.Tau under a token of the pool.
+func (pl *pool) one(p *solver.Problem) (*solver.Solution, error) {
+	sols, err := pl.grid(p, []float64{p.Tau}, nil)
+	if err != nil {
+		return nil, err
+	}
+	return sols[0], nil
 }

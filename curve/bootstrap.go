@@ -133,7 +133,7 @@ func bootstrapBands(pl *pool, r *rows, m0 *model, st *Stratum, c *config) ([]Ban
 	taus := st.Chart
 	guess := make([][]float64, len(taus))
 	for k, tau := range taus {
-		sol, err := pl.solve(&solver.Problem{Y: r.y, X: m.x, W: r.w, Tau: tau}, nil)
+		sol, err := pl.one(&solver.Problem{Y: r.y, X: m.x, W: r.w, Tau: tau})
 		if err != nil {
 			return nil, fmt.Errorf("unpenalised fit at tau %g: %w", tau, err)
 		}
