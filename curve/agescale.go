@@ -132,12 +132,12 @@ type ScaleChoice struct {
 // the simulations of this package (measured) at a fraction of the cost.
 const scaleSampleRows = 50000
 
-// AgeScaleCandidates returns the candidate scales of the automatic choice
+// ageScaleCandidates returns the candidate scales of the automatic choice
 // for ages in ageUnit: the identity, the powers 1/2 and 1/3 (when no age is
 // negative), and log(age + c) with c one month and one year (plus the
 // youngest age's distance below zero).
-func AgeScaleCandidates(ages []float64, ageUnit string) []AgeScale {
-	month := AutoLogShift(ages, ageUnit)
+func ageScaleCandidates(ages []float64, ageUnit string) []AgeScale {
+	month := autoLogShift(ages, ageUnit)
 	lo := 0.0
 	for _, a := range ages {
 		lo = min(lo, a)
@@ -150,8 +150,10 @@ func AgeScaleCandidates(ages []float64, ageUnit string) []AgeScale {
 	return append(out, AgeScale{Kind: ScaleLog, Shift: month}, AgeScale{Kind: ScaleLog, Shift: year})
 }
 
-// ChooseAgeScale is the automatic age scale of Build: each candidate of
-// AgeScaleCandidates is scored by the smoothness criterion of the settings
+// ChooseAgeScale is the automatic age scale of Build. The candidates are
+// the identity, age^(1/2) and age^(1/3) (when no age is negative), and
+// log(age + c) with c one month and one year in Settings.AgeUnit (plus the
+// youngest age's distance below zero). Each is scored by the smoothness criterion of the settings
 // (Settings.Criterion, the same criterion that chooses knots and penalty,
 // see Settings), each stratum at its own chosen smoothness, summed over
 // strata. The check loss is measured on the same values whatever the scale,
@@ -176,7 +178,7 @@ func ChooseAgeScale(d *Data, s *Settings) (*Reference, []ScaleChoice, []EdgeProb
 }
 
 func chooseScale(d *Data, fs *Settings) (*Reference, []ScaleChoice, []EdgeProblem, error) {
-	cands := AgeScaleCandidates(d.Age, fs.AgeUnit)
+	cands := ageScaleCandidates(d.Age, fs.AgeUnit)
 	sample := d
 	subsampled := len(d.Age) > scaleSampleRows
 	if subsampled {

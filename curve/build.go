@@ -34,7 +34,7 @@ type BuildSettings struct {
 	// data (see ChooseAgeScale).
 	Fit Settings
 	// AutoLogShift, with Fit.AgeScale.Kind = ScaleLog, replaces the shift
-	// by AutoLogShift of the rows' ages.
+	// by one month plus the youngest age's distance below zero (in Fit.AgeUnit).
 	AutoLogShift bool
 	// ScreenZ is the |z| against the robust screening fit (RobustZ) beyond
 	// which a row is excluded before the reference is fitted; 0 means
@@ -80,8 +80,9 @@ type Built struct {
 //
 //  1. rows outside a stated age range (Settings.AgeRange) are excluded;
 //  2. the implausibility screen (RobustZ) scores every row against a fit of
-//     the central centiles that gross errors cannot pull, and excludes rows
-//     with |z| > ScreenZ;
+//     the central centiles that gross errors cannot pull (on the identity
+//     age scale when the scale is automatic), and excludes rows with
+//     |z| > ScreenZ;
 //  3. with an automatic age scale, the scale is chosen from the data
 //     (ChooseAgeScale);
 //  4. the reference is fitted on the rows left (Fit);
@@ -99,7 +100,7 @@ func Build(d *Data, s *BuildSettings) (*Built, error) {
 	}
 	fs := s.Fit
 	if s.AutoLogShift && fs.AgeScale.Kind == ScaleLog {
-		fs.AgeScale.Shift = AutoLogShift(d.Age, fs.AgeUnit)
+		fs.AgeScale.Shift = autoLogShift(d.Age, fs.AgeUnit)
 	}
 	b := &Built{}
 	keep := make([]int, 0, len(d.Age))
@@ -182,11 +183,11 @@ func edgeError(problems []EdgeProblem) error {
 	return fmt.Errorf("%w:%s", ErrEdge, sb.String())
 }
 
-// AutoLogShift is the offset c of log(age + c) chosen for ages: one month
+// autoLogShift is the offset c of log(age + c) chosen for ages: one month
 // in the age unit ("days", "weeks", "months" — also "" — or "years"), plus
 // the youngest age's distance below zero, so that the log spreads the first
 // months without an extreme at birth.
-func AutoLogShift(ages []float64, ageUnit string) float64 {
+func autoLogShift(ages []float64, ageUnit string) float64 {
 	month := 1.0
 	switch ageUnit {
 	case "days":

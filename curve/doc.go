@@ -12,4 +12,10 @@
 // constraints, not checked afterwards. A measurement is scored by locating it
 // among the fitted quantiles of the dense tau grid at its age and mapping the
 // interpolated level to a z-score, z = Phi^-1(centile).
+//
+// Build is the whole pipeline that `growband build` runs: the robust
+// implausibility screen (RobustZ), the age scale chosen from the data
+// (ChooseAgeScale), Fit, and the edge checks (CheckEdges). Non-crossing,
+// smoothness choice, the sample-size guard and the bootstrap bands are
+// documented on NonCrossConstrain, Smoothness, Flag and Band.
 package curve
