@@ -161,34 +161,6 @@ func tauGrid(chart []float64, windows []window, guardMin float64) ([]float64, []
 	return out, dropped
 }
 
-// Edge checks.
-//
-// CheckEdges looks for what a smooth fit can do wrong where data thin out,
-// above all at the two ends of the age range, with three measurable tests
-// per stratum and chart centile:
-//
-//   - tie: at EdgeGridPoints equally spaced ages over the whole range, the
-//     gap between neighbouring chart centiles tau < tau' must be at least
-//     MinGapShare of the gap a normal distribution with the local spread
-//     would give, (Phi^-1(tau') - Phi^-1(tau)) * sigma(age), with sigma the
-//     fitted interquartile range over 1.349 (the normal IQR in SD units).
-//     Distinct centiles that (nearly) coincide fail it.
-//   - bend: in each end window (the rows in the outer tenth of the range of
-//     T(age), at least EdgeMinRows rows), the curve's mean slope across the
-//     window, Q(a_inner) - Q(a_end) over a_inner - a_end, must agree with
-//     the slope of a straight-line quantile regression of the window's rows
-//     on age at the same tau within EdgeSlopeZ standard errors. The
-//     standard error is Koenker's (2005) asymptotic one for iid errors,
-//     sqrt(tau(1-tau)) / f(Q_tau) / (sqrt(n_w) sd(age in window)), with the
-//     density at the quantile f = phi(Phi^-1(tau)) / sigma.
-//   - hook: the curve's slope at the end age itself has the opposite sign to
-//     the window's straight-line slope while that slope differs from zero by
-//     more than HookZ standard errors: the curve turns back where the data
-//     keep their direction.
-//
-// The checks are conservative on purpose: a problem fails a build unless
-// the user accepts it, so only gross departures count.
-
 // Thresholds of the edge checks.
 const (
 	// MinGapShare: a gap between neighbouring centiles below a quarter of
@@ -241,8 +213,37 @@ func (p EdgeProblem) String() string {
 
 // CheckEdges runs the edge checks on a fitted reference r against the
 // rows d it was fitted on and returns the problems found (nil when none).
+//
+// CheckEdges looks for what a smooth fit can do wrong where data thin out,
+// above all at the two ends of the age range, with three measurable tests
+// per stratum and chart centile:
+//
+//   - tie: at EdgeGridPoints equally spaced ages over the whole range, the
+//     gap between neighbouring chart centiles tau < tau' must be at least
+//     MinGapShare of the gap a normal distribution with the local spread
+//     would give, (Phi^-1(tau') - Phi^-1(tau)) * sigma(age), with sigma the
+//     fitted interquartile range over 1.349 (the normal IQR in SD units).
+//     Distinct centiles that (nearly) coincide fail it.
+//   - bend: in each end window (the rows in the outer tenth of the range of
+//     T(age), at least EdgeMinRows rows), the curve's mean slope across the
+//     window, Q(a_inner) - Q(a_end) over a_inner - a_end, must agree with
+//     the slope of a straight-line quantile regression of the window's rows
+//     on age at the same tau within EdgeSlopeZ standard errors. The
+//     standard error is Koenker's (2005) asymptotic one for iid errors,
+//     sqrt(tau(1-tau)) / f(Q_tau) / (sqrt(n_w) sd(age in window)), with the
+//     density at the quantile f = phi(Phi^-1(tau)) / sigma.
+//   - hook: the curve's slope at the end age itself has the opposite sign to
+//     the window's straight-line slope while that slope differs from zero by
+//     more than HookZ standard errors: the curve turns back where the data
+//     keep their direction.
+//
+// The checks are conservative on purpose: a problem fails a build unless
+// the user accepts it, so only gross departures count.
 // Strata of LMS tables are skipped. Errors wrap ErrData for data that do not
 // fit the reference.
+//
+// References:
+//   - Koenker R (2005). Quantile Regression. Cambridge University Press.
 func CheckEdges(r *Reference, d *Data) ([]EdgeProblem, error) {
 	c := &config{scale: r.AgeScale}
 	groups, _, err := prepare(d, c)
