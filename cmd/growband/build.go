@@ -131,7 +131,13 @@ func build(plan *intake.Plan, dir string, prog progress) (*built, error) {
 	for _, p := range res.Problems {
 		b.notes = append(b.notes, "accepted edge problem: "+p.String())
 	}
-	if b.diag, err = curve.Check(b.ref, tableData(t), nil); err != nil {
+	data = tableData(t)
+	notes, err := fitConditional(plan, b.ref, data, prog)
+	if err != nil {
+		return nil, err
+	}
+	b.notes = append(b.notes, notes...)
+	if b.diag, err = curve.Check(b.ref, data, nil); err != nil {
 		return nil, fmt.Errorf("diagnostics: %w", err)
 	}
 	b.elapsed = time.Since(start)
@@ -139,6 +145,12 @@ func build(plan *intake.Plan, dir string, prog progress) (*built, error) {
 		return nil, err
 	}
 	if err := b.writeFiles(prog); err != nil {
+		return nil, err
+	}
+	if err := b.fitCovariates(prog); err != nil {
+		return nil, err
+	}
+	if err := b.writeConditionalTable(); err != nil {
 		return nil, err
 	}
 	return b, nil
