@@ -39,4 +39,10 @@
 // A measurement is scored by locating it among the fitted quantiles at its
 // age (or in the tail model beyond them) and mapping its level to a z-score,
 // z = Phi^-1(centile).
+//
+// Build is the whole pipeline that `growband build` runs: the robust
+// implausibility screen (RobustZ), the age scale chosen from the data
+// (ChooseAgeScale), Fit, and the edge checks (CheckEdges). Non-crossing,
+// smoothness choice, the sample-size guard and the bootstrap bands are
+// documented on NonCrossConstrain, Smoothness, Flag and Band.
 package curve
