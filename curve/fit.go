@@ -40,6 +40,21 @@ const (
 	NonCrossRearrange = "rearrange" // unconstrained fits, coefficients sorted across tau
 )
 
+// CriterionText names a smoothness criterion code in words, as reports and
+// the reference file show it: "Schwarz criterion", "cross-validation" or
+// "fixed in the settings". Unknown codes are returned unchanged.
+func CriterionText(code string) string {
+	switch code {
+	case CriterionSIC:
+		return "Schwarz criterion"
+	case CriterionCV:
+		return "cross-validation"
+	case CriterionFixed:
+		return "fixed in the settings"
+	}
+	return code
+}
+
 // NoKnots as Settings.Knots asks for no interior knots: each curve is a
 // single polynomial of the given degree in T(age).
 const NoKnots = -1

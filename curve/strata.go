@@ -2,6 +2,7 @@ package curve
 
 import (
 	"fmt"
+	"math"
 	"math/rand/v2"
 	"slices"
 	"sync"
@@ -147,7 +148,7 @@ func fitStratum(pl *pool, r *rows, c *config) (*Stratum, error) {
 	taus, dropped := tauGrid(c.chart, windows, c.guardMin)
 	flags := append(chartFlags(c.chart, windows, c.guardMin), dropped...)
 	c.prog.printf("stratum %q: %d interior knots, lambda %.4g (%s); fitting %d centile curves",
-		r.name, ch.smooth.InteriorKnots, ch.smooth.Lambda, ch.smooth.Criterion, len(taus))
+		r.name, ch.smooth.InteriorKnots, ch.smooth.Lambda, ch.smooth.ChosenBy, len(taus))
 	eta := c.prog.eta(r.name, len(taus))
 	coef, err := fitGridWith(pl, m.x, m.pen, r.y, r.w, ch.smooth.Lambda, taus, c.nonCross, ch.median, eta.tick)
 	if err != nil {
@@ -164,6 +165,18 @@ func fitStratum(pl *pool, r *rows, c *config) (*Stratum, error) {
 		Chart:      slices.Clone(c.chart),
 		Smoothness: ch.smooth,
 		Flags:      flags,
+	}
+	neffMin := math.Inf(1)
+	for _, w := range windows {
+		neffMin = min(neffMin, w.neff)
+	}
+	lo, hi := bodyLimits(taus, neffMin)
+	b, err := spline.New(st.Knots, c.degree)
+	if err != nil {
+		return nil, err
+	}
+	if st.Tail, err = fitTail(st, b, c.scale, c.degree, lo, hi); err != nil {
+		return nil, err
 	}
 	if c.boot > 0 {
 		st.Bands, err = bootstrapBands(pl, r, m, st, c)

@@ -9,7 +9,6 @@ import (
 	"strings"
 
 	"growband/internal/clinic"
-	"growband/internal/cohort"
 )
 
 const usageTop = `usage: growband <command> [arguments]
@@ -40,7 +39,7 @@ var commands = map[string]command{
 	"score":   runScore,
 	"chart":   runChart,
 	"check":   runCheck,
-	"compare": adapt("compare", cohort.RunCompare),
+	"compare": runCompare,
 	"serve":   adapt("serve", clinic.RunServe),
 }
 
@@ -49,11 +48,10 @@ var commands = map[string]command{
 func adapt(name string, c command) command {
 	return func(args []string, stdout, stderr io.Writer) error {
 		err := c(args, stdout, stderr)
-		var u *cohort.UsageError
 		switch {
 		case errors.Is(err, flag.ErrHelp):
 			return errHelp
-		case errors.As(err, &u), errors.Is(err, clinic.ErrUsage):
+		case errors.Is(err, clinic.ErrUsage):
 			return usagef(name, "%v", err)
 		}
 		return err

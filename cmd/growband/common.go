@@ -206,12 +206,14 @@ func selectStrata(r *curve.Reference, name string) ([]*curve.Stratum, error) {
 // "50", "97" or "2.5".
 func centileName(p float64) string { return strconv.FormatFloat(p, 'g', -1, 64) }
 
-// num formats a measurement-scale number for tables: six significant digits.
+// num formats a number as the shortest text that reads back as x: table
+// values are rounded first (roundTable), to six significant digits or as
+// many more as a centile needs.
 func num(x float64) string {
 	if math.IsNaN(x) {
 		return ""
 	}
-	return strconv.FormatFloat(x, 'g', 6, 64)
+	return strconv.FormatFloat(x, 'g', -1, 64)
 }
 
 // ageText formats an age.
@@ -257,7 +259,7 @@ func fileStems(strata []curve.Stratum) []string {
 // shared by score, chart and check.
 type columnFlags struct {
 	age, birth, visit, value, stratum, subject, unit, dateFormat, codes string
-	stratumName                                                         string
+	stratumName, weight                                                 string
 }
 
 func (c *columnFlags) register(fs *flag.FlagSet, withSubject bool) {
@@ -270,7 +272,7 @@ func (c *columnFlags) register(fs *flag.FlagSet, withSubject bool) {
 	fs.StringVar(&c.dateFormat, "date-format", intake.DefaultDateFormat, "layout of the date columns, e.g. YYYY-MM-DD, DD/MM/YYYY, MM/DD/YYYY, DD.MM.YYYY or YYYYMMDD")
 	fs.StringVar(&c.codes, "stratum-codes", "", `map stratum codes to the reference's names, e.g. "F=female,M=male,1=male,2=female"`)
 	if withSubject {
-		fs.StringVar(&c.subject, "child-column", "", "column holding the child id (points of one child are joined)")
+		fs.StringVar(&c.subject, "subject-column", "", "column holding the child (subject) id: a chart joins a child's points, compare makes its intervals cluster-robust")
 	}
 }
 
@@ -280,7 +282,7 @@ func (c *columnFlags) register(fs *flag.FlagSet, withSubject bool) {
 // date layout and codes the flags name.
 func (c *columnFlags) spec(cmd string, r *curve.Reference) (*intake.Spec, error) {
 	s := scorefile.Spec(r)
-	s.Value, s.Subject, s.Stratum, s.DateFormat = c.value, c.subject, c.stratum, c.dateFormat
+	s.Value, s.Subject, s.Stratum, s.DateFormat, s.Weight = c.value, c.subject, c.stratum, c.dateFormat, c.weight
 	if c.unit != "" {
 		s.InputUnit = c.unit
 	}
@@ -335,3 +337,58 @@ func chartCentiles(st *curve.Stratum) []float64 {
 
 // shortAge formats an age for summaries: four significant digits.
 func shortAge(x float64) string { return strconv.FormatFloat(x, 'g', 4, 64) }
+
+// parseBands reads age band edges, the one grammar of --bands in every
+// command: FROM:TO:STEP (a shorter last band when STEP does not divide
+// TO-FROM) or a comma-separated list of increasing edges.
+func parseBands(s string) ([]float64, error) {
+	var edges []float64
+	if strings.Contains(s, ":") {
+		parts := strings.Split(s, ":")
+		if len(parts) != 3 {
+			return nil, fmt.Errorf("want FROM:TO:STEP, got %q", s)
+		}
+		var v [3]float64
+		for k, p := range parts {
+			x, err := strconv.ParseFloat(strings.TrimSpace(p), 64)
+			if err != nil || math.IsInf(x, 0) || math.IsNaN(x) {
+				return nil, fmt.Errorf("%q is not a number", p)
+			}
+			v[k] = x
+		}
+		from, to, step := v[0], v[1], v[2]
+		if !(step > 0) || !(to > from) {
+			return nil, fmt.Errorf("want FROM:TO:STEP with FROM < TO and STEP > 0, got %q", s)
+		}
+		n := math.Floor((to-from)/step*(1+gridSlack) + gridSlack)
+		if n > maxBands {
+			return nil, fmt.Errorf("%q makes more than %d bands", s, maxBands)
+		}
+		for k := 0; float64(k) <= n; k++ {
+			edges = append(edges, tidy(from+float64(k)*step))
+		}
+		if last := edges[len(edges)-1]; to-last > step*gridSlack {
+			edges = append(edges, to) // a shorter last band
+		} else {
+			edges[len(edges)-1] = to
+		}
+	} else {
+		var err error
+		if edges, err = parseNumbers(s, "band edges"); err != nil {
+			return nil, err
+		}
+	}
+	if len(edges) < 2 {
+		return nil, fmt.Errorf("need at least two edges, got %q", s)
+	}
+	for i := 1; i < len(edges); i++ {
+		if !(edges[i] > edges[i-1]) {
+			return nil, fmt.Errorf("edges must increase (%g after %g)", edges[i], edges[i-1])
+		}
+	}
+	return edges, nil
+}
+
+// maxBands is the most age bands --bands may make: more would be a typing
+// slip (a step of 0.001 for 0:60), not a table anyone reads.
+const maxBands = 10000

@@ -176,15 +176,22 @@ func ZText(z float64) string {
 	return strconv.FormatFloat(z, 'f', 3, 64)
 }
 
-// CentileText formats a centile in percent to two decimals, with more
-// digits in the far tails where two decimals would read 0.00 or 100.00;
-// NaN is "".
+// CentileText formats a centile in percent to two decimals, with more in
+// the tails: below 1 or above 99 two more than it takes to tell the
+// centile from 0 or 100 (z = 4.9 is "99.9999521", never "100"); NaN is "".
+// A centile that is 0 or 100 in double precision (|z| beyond about 8)
+// prints so.
 func CentileText(c float64) string {
-	switch {
-	case math.IsNaN(c):
+	if math.IsNaN(c) {
 		return ""
-	case c < 0.01 || c > 99.99:
-		return strconv.FormatFloat(c, 'g', 6, 64)
 	}
-	return strconv.FormatFloat(c, 'f', 2, 64)
+	dec := 2
+	if tail := min(c, 100-c); tail > 0 && tail < 1 {
+		dec = min(int(math.Ceil(-math.Log10(tail)))+2, maxCentileDecimals)
+	}
+	return strconv.FormatFloat(c, 'f', dec, 64)
 }
+
+// maxCentileDecimals caps the decimals of a tail centile: 100 - c carries
+// about 14 significant digits of a centile near 100.
+const maxCentileDecimals = 14
