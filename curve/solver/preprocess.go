@@ -256,8 +256,9 @@ func (red *reduction) dualAt(dual []float64) func(i int) float64 {
 type rowScale struct {
 	per []float64 // per coefficient
 	// row holds each data row's scale once filled (by the first pass that
-	// classifies rows), so later passes of a grid read it.
-	row    []float64
+	// classifies rows), so later passes of a grid read it. Single
+	// precision suffices to place rows in a band and halves the memory.
+	row    []float32
 	filled bool
 }
 
@@ -282,7 +283,7 @@ func newRowScale(x *Design, y []float64, n int, b []float64) *rowScale {
 		total += v
 	}
 	mean := total / float64(p)
-	s := &rowScale{per: make([]float64, p), row: make([]float64, n)}
+	s := &rowScale{per: make([]float64, p), row: make([]float32, n)}
 	for k := range s.per {
 		s.per[k] = 0
 		if mass[k] > 0 && size[k] > 0 {
@@ -439,7 +440,7 @@ func (red *reduction) pass(b []float64, tol, tie float64, into *reduction, ck *c
 		g, up, down            []float64
 		keep                   []int
 		isign                  []int8
-		scale                  []float64
+		scale                  []float32
 		fill                   bool
 		klo, khi               float64
 		upY, downY, upW, downW float64
@@ -499,9 +500,9 @@ func (red *reduction) pass(b []float64, tol, tie float64, into *reduction, ck *c
 		// compiler emits conditional moves) and both pools are summed,
 		// one of them with weight zero.
 		if fill {
-			scale[i] = into.scale.of(xi, fi)
+			scale[i] = float32(into.scale.of(xi, fi))
 		}
-		rs := (y[i] - rowDot(xi, g, fi)) * scale[i]
+		rs := (y[i] - rowDot(xi, g, fi)) * float64(scale[i])
 		ku, kd := 0, 0
 		if rs > khi {
 			ku = 1
