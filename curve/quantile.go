@@ -414,6 +414,11 @@ func (r *Reference) Validate() error {
 		if _, err := r.transform(st, b, st.AgeMax); err != nil {
 			return err
 		}
+		if st.Conditional != nil {
+			if err := st.Conditional.check(st.Name); err != nil {
+				return err
+			}
+		}
 	}
 	return nil
 }

@@ -70,6 +70,9 @@ type Stratum struct {
 	// directly (see Tail); nil in an LMS-table stratum, and in files of
 	// version 1, for which Load fits it from the curves.
 	Tail *Tail `json:"tail,omitempty"`
+	// Conditional, when not nil, is the model of growth since the previous
+	// visit (see FitConditional).
+	Conditional *Conditional `json:"conditional,omitempty"`
 
 	// checked records that Reference.ready validated an LMS stratum.
 	checked bool `json:"-"`

@@ -92,8 +92,12 @@ func outermostPairZ(t *testing.T, r *Reference, st *Stratum, age, v float64) flo
 	if err != nil {
 		t.Fatal(err)
 	}
+	tv, err := r.transform(st, b, age)
+	if err != nil {
+		t.Fatal(err)
+	}
 	q := make([]float64, len(st.Taus))
-	if err := curveAt(q, st, b, age, make([]float64, r.Degree+1), 0); err != nil {
+	if err := curveAt(q, st, b, tv, make([]float64, r.Degree+1), 0); err != nil {
 		t.Fatal(err)
 	}
 	n := len(q)

@@ -295,7 +295,9 @@ func TestScoreAllMatchesScore(t *testing.T) {
 	for i := range n {
 		d.Stratum[i] = []string{"F", "M"}[rng.IntN(2)]
 		d.Age[i] = 0.5 + rng.Float64()*23.5 // inside both strata's ranges
-		d.Value[i] = 4 + 2.2*math.Log(d.Age[i]+1) + rng.NormFloat64()*2
+		// Spread far into both tails, but positive: the Box–Cox tail model
+		// describes positive measurements.
+		d.Value[i] = (4 + 2.2*math.Log(d.Age[i]+1)) * math.Exp(0.4*rng.NormFloat64())
 	}
 	// A few rows that cannot be scored.
 	bad := map[int]error{7: ErrUnknownStratum, 99: ErrValue, 1234: ErrAgeRange}

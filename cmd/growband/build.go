@@ -120,6 +120,11 @@ func build(plan *intake.Plan, dir string, prog progress) (*built, error) {
 		}
 	}
 	b.ref = ref
+	notes, err := fitConditional(plan, ref, data, prog)
+	if err != nil {
+		return nil, err
+	}
+	b.notes = append(b.notes, notes...)
 	if b.diag, err = curve.Check(ref, data, nil); err != nil {
 		return nil, fmt.Errorf("diagnostics: %w", err)
 	}
@@ -128,6 +133,12 @@ func build(plan *intake.Plan, dir string, prog progress) (*built, error) {
 		return nil, err
 	}
 	if err := b.writeFiles(prog); err != nil {
+		return nil, err
+	}
+	if err := b.fitCovariates(prog); err != nil {
+		return nil, err
+	}
+	if err := b.writeConditionalTable(); err != nil {
 		return nil, err
 	}
 	return b, nil

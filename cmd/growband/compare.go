@@ -31,9 +31,17 @@ With --subject-column, a child's repeated visits are not independent: the
 intervals are cluster-robust (sandwich variance over subjects) and the
 Wilson intervals use the Kish effective n = n/deff. With --weight-column the
 estimates, and the z-score distribution chart, are weighted.
+With --subject-column and a reference that has a conditional model (a plan
+with a [conditional] table), the share of later visits below the 5th
+conditional centile given the child's previous visit (growth faltering) is
+reported with Wilson intervals clustered by child (growth.csv with --out).
 
 --vs adds a second cohort and the differences (cohort minus --vs) in mean z
-and in the shares with their intervals. --against-ref B places reference
+and in the shares with their intervals, and the two cohorts compared at
+every chart centile, adjusted for age (a quantile regression on B-splines
+in age and a cohort indicator; intervals by the bootstrap over children with
+--subject-column, else the Hall-Sheather sandwich; centile-diff.csv and the
+chart centile-diff-STRATUM with --out). --against-ref B places reference
 B's centiles in the reference's z units; it needs no cohort.
 
 Without --out the table goes to stdout (the summary, or with only

@@ -64,6 +64,9 @@ type Document struct {
 	AgainstRef  *RefDiff       `json:"against_ref,omitempty"`
 	Against     *RefInfo       `json:"against,omitempty"`
 	Unscored    []UnscoredLine `json:"unscored"`
+	// Faltering and Centiles are the growth results (see addGrowth).
+	Faltering []Faltering `json:"growth_faltering,omitempty"`
+	Centiles  []Shift     `json:"centile_differences,omitempty"`
 }
 
 // RefInfo names a reference in the outputs.
@@ -133,6 +136,9 @@ func Run(job *Job, stdout, stderr io.Writer) error {
 		r.NotScored = append(counts, r.NotScored...)
 		fmt.Fprintf(stderr, "growband: %s: %d of %d rows scored; %s\n", r.Cohort, r.Scored, r.Rows, r.Method)
 	}
+	if err := addGrowth(ref, data, doc, opt.Level); err != nil {
+		return err
+	}
 	if job.Against != nil {
 		var err error
 		if doc.AgainstRef, err = CompareReferences(ref, job.Against, nil, nil); err != nil {
@@ -154,7 +160,10 @@ func Run(job *Job, stdout, stderr io.Writer) error {
 		case job.JSON:
 			return writeJSON(stdout, doc)
 		case len(doc.Cohorts) > 0:
-			return writeSummary(stdout, doc)
+			if err := writeSummary(stdout, doc); err != nil {
+				return err
+			}
+			return writeGrowthText(stdout, doc)
 		default:
 			return writeRefDiff(stdout, doc)
 		}
@@ -206,6 +215,18 @@ func writeOut(job *Job, doc *Document, data []*curve.Data, stderr io.Writer) err
 	if err != nil {
 		return err
 	}
+	tables, more, err := growthFiles(job.Ref, doc)
+	if err != nil {
+		return err
+	}
+	for _, name := range []string{"growth.csv", "centile-diff.csv"} {
+		if f := tables[name]; f != nil {
+			if err := put(name, f); err != nil {
+				return err
+			}
+		}
+	}
+	figs = append(figs, more...)
 	format := job.ChartFormat
 	if format == "" {
 		format = "svg"

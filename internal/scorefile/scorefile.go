@@ -38,6 +38,7 @@ type Row struct {
 	Z, Centile float64  // NaN when not scored
 	Flag       string   // reason not scored, or the score's remarks
 	OK         bool     // scored
+	Cond       *Cond    // conditional score; nil when not asked for (AddChanges)
 }
 
 // ErrNoStratum reports a file without a stratum column scored against a
@@ -112,18 +113,28 @@ func StrataNames(r *curve.Reference) string {
 // Columns are the columns added to the file.
 var Columns = []string{"z", "centile", "flag"}
 
-// WriteCSV echoes the rows under header with Columns added. A row with
+// WriteCSV echoes the rows under header with Columns added (and
+// CondColumns before flag when the rows carry conditional scores). A row with
 // fewer cells than the header (one whose quoting could not be read) is
 // padded with empty cells, so that the added columns line up.
 func WriteCSV(w io.Writer, header []string, rows []Row) error {
 	cw := csv.NewWriter(w)
-	cw.Write(append(slices.Clone(header), Columns...))
+	cond := len(rows) > 0 && rows[0].Cond != nil
+	head := append(slices.Clone(header), Columns[:2]...)
+	if cond {
+		head = append(head, CondColumns...)
+	}
+	cw.Write(append(head, Columns[2:]...))
 	for _, o := range rows {
 		cells := slices.Clone(o.Fields)
 		for len(cells) < len(header) {
 			cells = append(cells, "")
 		}
-		cw.Write(append(cells, ZText(o.Z), CentileText(o.Centile), o.Flag))
+		cells = append(cells, ZText(o.Z), CentileText(o.Centile))
+		if cond {
+			cells = append(cells, ZText(o.Cond.Z), CentileText(o.Cond.Centile))
+		}
+		cw.Write(append(cells, o.Flag))
 	}
 	cw.Flush()
 	return cw.Error()
@@ -137,6 +148,8 @@ func WriteJSON(w io.Writer, r *curve.Reference, header []string, rows []Row) err
 		Fields  []string `json:"fields"`
 		Z       *float64 `json:"z"`
 		Centile *float64 `json:"centile"`
+		CondZ   *float64 `json:"cond_z,omitempty"`
+		CondC   *float64 `json:"cond_centile,omitempty"`
 		Flag    string   `json:"flag"`
 	}
 	doc := struct {
@@ -155,6 +168,10 @@ func WriteJSON(w io.Writer, r *curve.Reference, header []string, rows []Row) err
 		if o.OK {
 			z, c := round(o.Z, 3), round(o.Centile, 4)
 			x.Z, x.Centile = &z, &c
+		}
+		if o.Cond != nil && !math.IsNaN(o.Cond.Z) {
+			z, c := round(o.Cond.Z, 3), round(o.Cond.Centile, 4)
+			x.CondZ, x.CondC = &z, &c
 		}
 		doc.Rows = append(doc.Rows, x)
 	}
