@@ -491,7 +491,7 @@ type rows struct {
 	lo    [2]float64 // age and T(age) where the knots are clamped below
 	hi    [2]float64 // and above: the stated range or the rows' range
 	age   []float64  // ages, increasing
-	t     []float64  // T(age), increasing
+	t     []float64  // T(age), increasing; age itself for the identity scale
 	y     []float64
 	w     []float64
 	subj  []int // subject index per row in 0..nsubj-1, or nil
@@ -541,8 +541,14 @@ func prepare(d *Data, c *config) ([]*rows, string, error) {
 		}
 	}
 
+	// Rows are grouped in two passes, a count and a fill, so that each
+	// group's index list is allocated once at its size: at registry scale
+	// the doubling of appended lists would cost more memory than the rows.
 	t := make([]float64, n)
-	byName := map[string][]int{}
+	gid := make([]int32, n)
+	ids := map[string]int32{}
+	var names []string
+	var counts []int
 	for i := range n {
 		a, v := d.Age[i], d.Value[i]
 		if math.IsNaN(a) || math.IsInf(a, 0) {
@@ -568,17 +574,36 @@ func prepare(d *Data, c *config) ([]*rows, string, error) {
 		if d.Stratum != nil {
 			name = d.Stratum[i]
 		}
-		byName[name] = append(byName[name], i)
+		g, ok := ids[name]
+		if !ok {
+			g = int32(len(names))
+			ids[name] = g
+			names = append(names, name)
+			counts = append(counts, 0)
+		}
+		gid[i] = g
+		counts[g]++
 	}
+	byGroup := make([][]int, len(names))
+	for g, k := range counts {
+		byGroup[g] = make([]int, 0, k)
+	}
+	for i, g := range gid {
+		byGroup[g] = append(byGroup[g], i)
+	}
+	gid = nil
 
-	names := make([]string, 0, len(byName))
-	for name := range byName {
-		names = append(names, name)
+	order := make([]int, len(names))
+	for g := range order {
+		order[g] = g
 	}
-	slices.Sort(names)
+	slices.SortFunc(order, func(a, b int) int { return cmp.Compare(names[a], names[b]) })
+	// With the identity age scale T(age) = age, and one slice serves both.
+	identity := c.scale.Kind == "" || c.scale.Kind == ScaleIdentity
 	groups := make([]*rows, len(names))
-	for g, name := range names {
-		idx := byName[name]
+	for pos, g := range order {
+		name, idx := names[g], byGroup[g]
+		byGroup[g] = nil
 		// Stable order by age: ties keep input order, so the fit does not
 		// depend on map iteration or sort internals.
 		slices.SortStableFunc(idx, func(i, j int) int { return cmp.Compare(t[i], t[j]) })
@@ -586,30 +611,34 @@ func prepare(d *Data, c *config) ([]*rows, string, error) {
 			name: name,
 			src:  idx,
 			age:  make([]float64, len(idx)),
-			t:    make([]float64, len(idx)),
 			y:    make([]float64, len(idx)),
 			w:    make([]float64, len(idx)),
 		}
-		var ids map[string]int
+		r.t = r.age
+		if !identity {
+			r.t = make([]float64, len(idx))
+		}
+		var subj map[string]int
 		if d.Subject != nil {
 			r.subj = make([]int, len(idx))
-			ids = map[string]int{}
+			subj = map[string]int{}
 		}
 		for k, i := range idx {
-			r.age[k], r.t[k], r.y[k], r.w[k] = d.Age[i], t[i], d.Value[i], 1
+			r.age[k], r.y[k], r.w[k] = d.Age[i], d.Value[i], 1
+			r.t[k] = t[i]
 			if d.Weight != nil {
 				r.w[k] = d.Weight[i]
 			}
-			if ids != nil {
-				id, ok := ids[d.Subject[i]]
+			if subj != nil {
+				id, ok := subj[d.Subject[i]]
 				if !ok {
-					id = len(ids)
-					ids[d.Subject[i]] = id
+					id = len(subj)
+					subj[d.Subject[i]] = id
 				}
 				r.subj[k] = id
 			}
 		}
-		r.nsubj = len(ids)
+		r.nsubj = len(subj)
 		m := len(idx) - 1
 		r.lo, r.hi = [2]float64{r.age[0], r.t[0]}, [2]float64{r.age[m], r.t[m]}
 		if c.ageRange != nil {
@@ -618,7 +647,7 @@ func prepare(d *Data, c *config) ([]*rows, string, error) {
 		if !(r.t[0] < r.t[len(idx)-1]) {
 			return nil, "", fmt.Errorf("%w: stratum %q: all %d ages are equal", ErrData, name, len(idx))
 		}
-		groups[g] = r
+		groups[pos] = r
 	}
 	return groups, inputHash(d), nil
 }
