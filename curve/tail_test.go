@@ -227,9 +227,14 @@ func TestTailNotBoxCox(t *testing.T) {
 					t.Logf("%s %s: chart centiles off by %.3f on average, %.3f at worst (bounds %g, %g)", c.name, name, mean, worst, bm, bw)
 				}
 				// A guard against gross regressions at the edges, far looser
-				// than the 0.2 (measured 0.24–0.40 at the first and
-				// last ages, 15,000 a sex).
-				if limit := 2.5 * bw; worst > limit {
+				// than the 0.2: measured 0.24–0.40 at the first and
+				// last ages with 15,000 a sex, 0.5–1.6 with the 4,000 of
+				// -short.
+				limit := 0.5
+				if testing.Short() {
+					limit = 2.5
+				}
+				if worst > limit {
 					t.Errorf("%s %s: a chart centile is %.3f z off, beyond the guard %g", c.name, name, worst, limit)
 				}
 				if mean > mlMean {
