@@ -2,36 +2,6 @@ package intake
 
 import "unicode/utf8"
 
-// headerLine returns the first non-blank line of data (without its line
-// ending) and its 1-based line number. A newline inside double quotes does
-// not end the line.
-func headerLine(data []byte) ([]byte, int) {
-	line := 1
-	start := 0
-	for start < len(data) && (data[start] == '\n' || data[start] == '\r') {
-		if data[start] == '\n' {
-			line++
-		}
-		start++
-	}
-	quoted := false
-	for i := start; i < len(data); i++ {
-		switch data[i] {
-		case '"':
-			quoted = !quoted
-		case '\n':
-			if !quoted {
-				end := i
-				if end > start && data[end-1] == '\r' {
-					end--
-				}
-				return data[start:end], line
-			}
-		}
-	}
-	return data[start:], line
-}
-
 // detectDelimiter picks the delimiter of a header line: the most frequent of
 // comma, semicolon and tab outside double quotes, preferring them in that
 // order on a tie. A header with none of them is read as comma-separated.

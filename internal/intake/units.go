@@ -46,22 +46,6 @@ func unitFactor(from, to string) (float64, error) {
 	return a.factor / b.factor, nil
 }
 
-// Days per age unit. A month is 30.4375 days (365.25/12) and a year 365.25
-// days, the averages over the four-year leap cycle (common practice).
-var daysPer = map[string]float64{
-	"days":   1,
-	"weeks":  7,
-	"months": 30.4375,
-	"years":  365.25,
-}
-
-func checkAgeUnit(u string) error {
-	if _, ok := daysPer[u]; !ok {
-		return fmt.Errorf("age unit %q is not one of days, weeks, months, years", u)
-	}
-	return nil
-}
-
 // plausibleDefault returns the default plausible value range for a measure
 // name in the given unit, and false when there is none. The limits are wide
 // on purpose: they catch entry errors (a weight in grams in a kilogram
