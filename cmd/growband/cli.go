@@ -34,14 +34,16 @@ Run "growband <command> -h" for a command's arguments.
 type command func(args []string, stdout, stderr io.Writer) error
 
 var commands = map[string]command{
-	"build":   runBuild,
-	"demo":    runDemo,
-	"table":   runTable,
-	"score":   runScore,
-	"chart":   runChart,
-	"check":   runCheck,
-	"compare": adapt("compare", cohort.RunCompare),
-	"serve":   adapt("serve", clinic.RunServe),
+	"build": runBuild,
+	"demo":  runDemo,
+	"table": runTable,
+	"score": runScore,
+	"chart": runChart,
+	"check": runCheck,
+	"compare": adapt("compare", func(args []string, stdout, stderr io.Writer) error {
+		return cohort.RunCompare(args, stdout, stderr, registerReadFlags)
+	}),
+	"serve": adapt("serve", clinic.RunServe),
 }
 
 // adapt maps the help and usage errors of a subcommand that lives in its own

@@ -7,6 +7,8 @@ import (
 	"net/http"
 	"strings"
 	"testing"
+
+	"growband/internal/intake"
 )
 
 // FuzzScoreBody feeds arbitrary bodies to the score endpoint's reader and
@@ -55,10 +57,13 @@ func FuzzBatchCSV(f *testing.F) {
 	}
 	h, _ := newTestHandler(f, Options{}, false)
 	f.Fuzz(func(t *testing.T, data []byte) {
-		_, err := h.scoreCSV(io.Discard, "fuzz.csv", data, 0)
+		job, err := h.startBatch("fuzz.csv", data, 0, &intake.Options{})
 		var ie *inputError
 		if err != nil && !errors.As(err, &ie) {
 			t.Fatalf("%q: error %v is not an input error", data, err)
+		}
+		if err == nil {
+			job.write(io.Discard)
 		}
 	})
 }

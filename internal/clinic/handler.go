@@ -22,6 +22,8 @@ type handler struct {
 	log   io.Writer
 	max   int64
 	mux   *http.ServeMux
+
+	batchSlots chan struct{} // one token per batch job running (maxBatchJobs)
 }
 
 // NewHandler returns the HTTP handler of the page and the API for the loaded
@@ -30,7 +32,8 @@ type handler struct {
 // NewHandler panics on no references, mismatched lengths or a repeated name:
 // those are programming mistakes. opt.Refs, Addr and AllowRemote are ignored.
 func NewHandler(refs []*curve.Reference, names []string, opt Options) http.Handler {
-	h := &handler{cat: newCatalog(refs, names), log: opt.Log, max: opt.maxBody(), mux: http.NewServeMux()}
+	h := &handler{cat: newCatalog(refs, names), log: opt.Log, max: opt.maxBody(), mux: http.NewServeMux(),
+		batchSlots: make(chan struct{}, maxBatchJobs)}
 	if opt.Audit != nil {
 		h.audit = &auditLog{w: opt.Audit, now: time.Now}
 	}

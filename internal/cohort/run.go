@@ -55,8 +55,11 @@ Flags:
 // writing results to stdout and messages ("growband: ...") to stderr.
 // A bad command line returns a *UsageError (exit status 2); "-h" writes the
 // usage to stdout and returns flag.ErrHelp (success); any other error is a
-// failure (status 1).
-func RunCompare(args []string, stdout, stderr io.Writer) error {
+// failure (status 1). readFlags registers the reading options every command
+// shares (age, date, value and stratum columns, unit, delimiter, decimal,
+// missing markers, date format, stratum codes, sheet) and returns the
+// function that applies them to the reading spec.
+func RunCompare(args []string, stdout, stderr io.Writer, readFlags func(*flag.FlagSet) func(*intake.Spec) error) error {
 	fs := flag.NewFlagSet("compare", flag.ContinueOnError)
 	fs.SetOutput(io.Discard)
 	refPath := fs.String("ref", "", "reference file, or LMS table *.csv (required)")
@@ -72,13 +75,9 @@ func RunCompare(args []string, stdout, stderr io.Writer) error {
 	name := fs.String("name", "", "label of the cohort (default: the file name)")
 	vsName := fs.String("vs-name", "", "label of the --vs cohort (default: its file name)")
 	var col intake.Spec
-	fs.StringVar(&col.Age, "age-column", "", `column holding the age, in the reference's age unit (default: a column named "age")`)
-	fs.StringVar(&col.Value, "value-column", "", `column holding the measurement (default: a column named after the reference's measure, or "value")`)
-	fs.StringVar(&col.Stratum, "stratum-column", "", `column holding the stratum (default: a column named "stratum", "sex" or "group")`)
 	fs.StringVar(&col.Subject, "subject-column", "", "column holding the subject id: intervals become cluster-robust")
 	fs.StringVar(&col.Weight, "weight-column", "", "column holding survey weights (positive)")
-	fs.StringVar(&col.InputUnit, "unit", "", "unit of the values in the file, converted to the reference's unit")
-	codes := fs.String("stratum-codes", "", `map stratum codes to the reference's names, e.g. "F=female,M=male"`)
+	applyRead := readFlags(fs)
 
 	usage := func(format string, a ...any) error {
 		return &UsageError{Msg: "compare: " + fmt.Sprintf(format, a...)}
@@ -129,18 +128,10 @@ func RunCompare(args []string, stdout, stderr io.Writer) error {
 	// The rules every command reads a file to score by, with the columns
 	// and unit the flags name.
 	spec := scorefile.Spec(ref)
-	spec.Age, spec.Value, spec.Stratum = col.Age, col.Value, col.Stratum
+	if err := applyRead(spec); err != nil {
+		return usage("%v", err)
+	}
 	spec.Subject, spec.Weight = col.Subject, col.Weight
-	if col.InputUnit != "" {
-		spec.InputUnit = col.InputUnit
-	}
-	if *codes != "" {
-		m, err := intake.ParseCodes(*codes)
-		if err != nil {
-			return usage("--stratum-codes: %v", err)
-		}
-		spec.StratumCodes = m
-	}
 
 	ta, da, err := readCohort(*in, ref, spec, stderr)
 	if err != nil {

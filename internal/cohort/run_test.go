@@ -14,6 +14,8 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+
+	"growband/internal/intake"
 )
 
 // writeCohort writes a cohort CSV drawn from testTable with a shift in z,
@@ -52,7 +54,7 @@ func TestRunCompare(t *testing.T) {
 	var stdout, stderr bytes.Buffer
 	args := []string{"--ref", refPath, "--in", in, "--vs", vs, "--bands", "0:60:12",
 		"--stratum-column", "sex", "--subject-column", "id", "--against-ref", refPath, "--out", out, "--own-centiles"}
-	if err := RunCompare(args, &stdout, &stderr); err != nil {
+	if err := RunCompare(args, &stdout, &stderr, testReadFlags); err != nil {
 		t.Fatalf("%v\n%s", err, stderr.String())
 	}
 	for _, f := range []string{"compare.csv", "differences.csv", "refdiff.csv", "unscored.csv", "zdist.svg", "zdist-vs.svg", "refdiff-boys.svg", "refdiff-girls.svg", "own-boys.svg", "own-girls.svg"} {
@@ -87,7 +89,7 @@ func TestRunCompare(t *testing.T) {
 
 	// JSON to stdout.
 	stdout.Reset()
-	if err := RunCompare([]string{"--ref", refPath, "--in", in, "--stratum-column", "sex", "--format", "json"}, &stdout, &stderr); err != nil {
+	if err := RunCompare([]string{"--ref", refPath, "--in", in, "--stratum-column", "sex", "--format", "json"}, &stdout, &stderr, testReadFlags); err != nil {
 		t.Fatal(err)
 	}
 	var doc struct {
@@ -107,7 +109,7 @@ func TestRunCompare(t *testing.T) {
 
 func TestRunCompareUsage(t *testing.T) {
 	var stdout, stderr bytes.Buffer
-	if err := RunCompare([]string{"-h"}, &stdout, &stderr); !errors.Is(err, flag.ErrHelp) || !strings.Contains(stdout.String(), "usage: growband compare") || !strings.Contains(stdout.String(), "-subject-column") {
+	if err := RunCompare([]string{"-h"}, &stdout, &stderr, testReadFlags); !errors.Is(err, flag.ErrHelp) || !strings.Contains(stdout.String(), "usage: growband compare") || !strings.Contains(stdout.String(), "-subject-column") {
 		t.Errorf("-h: %v\n%s", err, stdout.String())
 	}
 	var u *UsageError
@@ -120,12 +122,12 @@ func TestRunCompareUsage(t *testing.T) {
 		{"--ref", "r.json", "--in", "a.csv", "extra"},
 		{"--nonsense"},
 	} {
-		if err := RunCompare(args, &stdout, &stderr); !errors.As(err, &u) {
+		if err := RunCompare(args, &stdout, &stderr, testReadFlags); !errors.As(err, &u) {
 			t.Errorf("%v: %v, want a UsageError", args, err)
 		}
 	}
 	// A missing file is a failure, not a usage error.
-	if err := RunCompare([]string{"--ref", "/nonexistent.json", "--in", "a.csv"}, &stdout, &stderr); err == nil || errors.As(err, &u) {
+	if err := RunCompare([]string{"--ref", "/nonexistent.json", "--in", "a.csv"}, &stdout, &stderr, testReadFlags); err == nil || errors.As(err, &u) {
 		t.Errorf("missing file: %v", err)
 	}
 }
@@ -171,4 +173,14 @@ func FuzzParseBands(f *testing.F) {
 			t.Fatalf("%q: %d edges", s, len(b))
 		}
 	})
+}
+
+// testReadFlags registers the shared reading options as the command does
+// (cmd/growband's registerReadFlags, without its help texts).
+func testReadFlags(fs *flag.FlagSet) func(*intake.Spec) error {
+	var o intake.Options
+	for _, name := range intake.OptionNames {
+		fs.Func(name, name, func(v string) error { return o.Set(name, v) })
+	}
+	return o.Apply
 }

@@ -62,7 +62,13 @@ func (d *planDecoder) plan(rp *rawPlan) *Plan {
 		p.Measure.Unit, _ = d.str("measure.unit", rm.Unit)
 	}
 	if rm.AgeUnit.set {
-		p.Measure.AgeUnit, _ = d.oneOf("measure.age_unit", rm.AgeUnit, "days", "weeks", "months", "years")
+		if v, ok := d.str("measure.age_unit", rm.AgeUnit); ok {
+			u, err := ParseAgeUnit(v)
+			if err != nil {
+				d.fail("measure.age_unit", ErrPlanValue, "measure.age_unit: %v", err)
+			}
+			p.Measure.AgeUnit = u.String()
+		}
 	}
 
 	// Reading options.
@@ -76,14 +82,23 @@ func (d *planDecoder) plan(rp *rawPlan) *Plan {
 		}
 	}
 	if ri.Delimiter.set {
-		if s, ok := d.oneOf("input.delimiter", ri.Delimiter, "auto", ",", ";", "tab", "\t"); ok {
-			in.Delimiter = map[string]rune{"auto": 0, ",": ',', ";": ';', "tab": '\t', "\t": '\t'}[s]
+		if v, ok := d.str("input.delimiter", ri.Delimiter); ok {
+			var err error
+			if in.Delimiter, err = ParseDelimiter(v); err != nil {
+				d.fail("input.delimiter", ErrPlanValue, "input.delimiter: %v", err)
+			}
 		}
 	}
 	if ri.Decimal.set {
-		if s, ok := d.oneOf("input.decimal", ri.Decimal, "auto", "point", "comma"); ok {
-			in.Decimal = map[string]Decimal{"auto": DecimalAuto, "point": DecimalPoint, "comma": DecimalComma}[s]
+		if v, ok := d.str("input.decimal", ri.Decimal); ok {
+			var err error
+			if in.Decimal, err = ParseDecimal(v); err != nil {
+				d.fail("input.decimal", ErrPlanValue, "input.decimal: %v", err)
+			}
 		}
+	}
+	if ri.Sheet.set {
+		in.Sheet, _ = d.str("input.sheet", ri.Sheet)
 	}
 	in.Missing = slices.Clone(DefaultMissing)
 	if ri.Missing.set {

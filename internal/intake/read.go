@@ -143,6 +143,8 @@ type rowReader struct {
 	// month swapped, for DateHint.
 	dateFail, swapOK int
 	dateCol          string
+
+	lim *limits // impossible values, set on the first row
 }
 
 func (rd *rowReader) row(rec *record) (Row, Reason, string) {
@@ -206,6 +208,20 @@ func (rd *rowReader) row(rec *record) (Row, Reason, string) {
 			return row, ReasonMissing, p.Subject
 		}
 		row.Subject = s
+	}
+	if row.Age < 0 {
+		return row, ReasonAgeRange, fmt.Sprintf("age %s %s is impossible: it must be 0 or above", fmtNum(row.Age), p.AgeUnit)
+	}
+	if rd.lim == nil {
+		measure := p.Measure
+		if measure == "" {
+			measure = p.Value
+		}
+		l := limitsOf(measure, p.Unit)
+		rd.lim = &l
+	}
+	if why := rd.lim.check(row.Value); why != "" {
+		return row, ReasonValueRange, why
 	}
 	if !p.AgeRange.Contains(row.Age) {
 		return row, ReasonAgeRange, fmt.Sprintf("age %s %s not in [%g, %g]", fmtNum(row.Age), p.AgeUnit, p.AgeRange.Min, p.AgeRange.Max)

@@ -51,18 +51,16 @@ func unitFactor(from, to string) (float64, error) {
 // on purpose: they catch entry errors (a weight in grams in a kilogram
 // column, a height of 1700 cm), not unusual children (common practice).
 func plausibleDefault(measure, unit string) (Range, bool) {
-	name := strings.ToLower(strings.TrimSpace(measure))
-	name = strings.NewReplacer("_", " ", "-", " ").Replace(name)
 	var lo, hi float64
 	base := ""
-	switch name {
-	case "weight", "body weight", "mass", "body mass":
+	switch measureKind(measure) {
+	case "mass":
 		lo, hi, base = 0.2, 250, "kg"
-	case "length", "height", "stature", "recumbent length", "standing height":
+	case "length":
 		lo, hi, base = 20, 250, "cm"
-	case "head", "head circumference", "hc", "ofc":
+	case "head":
 		lo, hi, base = 10, 80, "cm"
-	case "bmi", "body mass index":
+	case "bmi":
 		if unit != "" && unit != "kg/m2" && unit != "kg/m^2" && unit != "kg/m²" {
 			return Range{}, false
 		}
@@ -75,6 +73,87 @@ func plausibleDefault(measure, unit string) (Range, bool) {
 		return Range{}, false
 	}
 	return Range{Min: lo * f, Max: hi * f}, true
+}
+
+// measureKind sorts a measure name: "mass", "length", "head", "bmi", or ""
+// for a measure growband knows nothing about.
+func measureKind(measure string) string {
+	name := strings.ToLower(strings.TrimSpace(measure))
+	name = strings.NewReplacer("_", " ", "-", " ").Replace(name)
+	switch name {
+	case "weight", "body weight", "mass", "body mass":
+		return "mass"
+	case "length", "height", "stature", "recumbent length", "standing height":
+		return "length"
+	case "head", "head circumference", "hc", "ofc":
+		return "head"
+	case "bmi", "body mass index":
+		return "bmi"
+	}
+	return ""
+}
+
+// Impossible values are refused whatever the plausible ranges say: a body
+// measurement of zero or below, or one above impossibleFactor times the top
+// of its default plausible range (the ranges are wide already, so ten times
+// them is beyond any human, common practice); for a measure without a
+// default range, a magnitude above maxOtherValue (from memory: no body
+// measurement of a child in any unit in use, grams and ounces included,
+// reaches a million).
+const (
+	impossibleFactor = 10
+	maxOtherValue    = 1e9
+)
+
+// limits are the impossible values of a measure: at or below zero when
+// positive, above max in size.
+type limits struct {
+	measure, unit string
+	positive      bool
+	max           float64
+}
+
+func limitsOf(measure, unit string) limits {
+	l := limits{measure: measure, unit: unit, positive: measureKind(measure) != "", max: maxOtherValue}
+	if r, ok := plausibleDefault(measure, unit); ok {
+		l.max = impossibleFactor * r.Max
+	}
+	return l
+}
+
+// check returns why value cannot be a measurement, or "" when it can.
+func (l *limits) check(value float64) string {
+	switch {
+	case l.positive && value <= 0:
+		return fmt.Sprintf("%s %s %s is impossible: it must be above 0", l.measure, fmtNum(value), l.unit)
+	case math.Abs(value) > l.max:
+		return fmt.Sprintf("%s %s %s is impossible: its size is above %g %s", l.measure, fmtNum(value), l.unit, l.max, l.unit)
+	}
+	return ""
+}
+
+// CheckMeasurement refuses an impossible measurement: a negative age, or a
+// value impossible for measure in unit (see the reading rules in PLAN.md).
+// The error says which and why; field names "age" or "value".
+func CheckMeasurement(measure, unit string, age, value float64) (field string, err error) {
+	if age < 0 || math.IsNaN(age) {
+		return "age", fmt.Errorf("age %s is impossible: it must be 0 or above", fmtNum(age))
+	}
+	if math.IsNaN(value) || math.IsInf(value, 0) {
+		return "value", fmt.Errorf("value %s is not a number", fmtNum(value))
+	}
+	l := limitsOf(nameOr(measure), unit)
+	if why := l.check(value); why != "" {
+		return "value", fmt.Errorf("%s", why)
+	}
+	return "", nil
+}
+
+func nameOr(measure string) string {
+	if strings.TrimSpace(measure) == "" {
+		return "value"
+	}
+	return measure
 }
 
 // Range is a closed interval [Min, Max] of plausible values. The zero Range

@@ -26,7 +26,7 @@ func Spec(r *curve.Reference) *intake.Spec {
 	if r.Measure != "" && !slices.Contains(look.Value, strings.ToLower(r.Measure)) {
 		look.Value = append([]string{r.Measure}, look.Value...)
 	}
-	return &intake.Spec{AgeUnit: r.AgeUnit, Unit: r.Unit, InputUnit: r.Unit, KeepDuplicates: true, Look: &look}
+	return &intake.Spec{AgeUnit: r.AgeUnit, Unit: r.Unit, InputUnit: r.Unit, Measure: r.Measure, KeepDuplicates: true, Look: &look}
 }
 
 // Row is one input row with its score, or the reason it has none.
@@ -57,30 +57,44 @@ func Score(r *curve.Reference, t *intake.Table, stratum func(string) string) ([]
 	}
 	var out []Row
 	for _, rec := range t.All() {
-		o := Row{Line: rec.Line, Fields: rec.Fields, Age: math.NaN(), Value: math.NaN(), Z: math.NaN(), Centile: math.NaN()}
-		if rec.Excl != nil {
-			o.Flag = rec.Excl.Text()
-			out = append(out, o)
-			continue
-		}
-		o.Stratum, o.Age, o.Value = stratum(rec.Row.Stratum), rec.Row.Age, rec.Row.Value
-		s, err := r.Score(o.Stratum, o.Age, o.Value)
-		if err != nil {
-			o.Flag = Reason(r, err)
-		} else {
-			o.Z, o.Centile, o.Flag, o.OK = s.Z, s.Centile, s.Flags.String(), true
-		}
-		out = append(out, o)
+		out = append(out, ScoreRecord(r, rec, stratum))
 	}
 	return out, nil
+}
+
+// ScoreRecord scores one row as read (from Table.All or Reader.Next);
+// stratum maps the row's stratum to the one scored in.
+func ScoreRecord(r *curve.Reference, rec intake.Record, stratum func(string) string) Row {
+	o := Row{Line: rec.Line, Fields: rec.Fields, Age: math.NaN(), Value: math.NaN(), Z: math.NaN(), Centile: math.NaN()}
+	if rec.Excl != nil {
+		o.Flag = rec.Excl.Text()
+		return o
+	}
+	if stratum == nil {
+		stratum = func(s string) string { return s }
+	}
+	o.Stratum, o.Age, o.Value = stratum(rec.Row.Stratum), rec.Row.Age, rec.Row.Value
+	s, err := r.Score(o.Stratum, o.Age, o.Value)
+	if err != nil {
+		o.Flag = Reason(r, err)
+	} else {
+		o.Z, o.Centile, o.Flag, o.OK = s.Z, s.Centile, s.Flags.String(), true
+	}
+	return o
 }
 
 // NeedStratum returns an error wrapping ErrNoStratum when t was read
 // without a stratum column and r has several strata.
 func NeedStratum(r *curve.Reference, t *intake.Table) error {
-	if t.Stratum == "" && len(r.Strata) > 1 {
-		return fmt.Errorf("%s: %w: the reference has strata %s; add a column named %s",
-			t.Name, ErrNoStratum, StrataNames(r), strings.Join(intake.UsualNames.Stratum, " or "))
+	return NeedStratumColumn(r, t.Name, t.Stratum)
+}
+
+// NeedStratumColumn is NeedStratum for the file name read with the stratum
+// column stratumCol ("" for none), as a Reader gives them.
+func NeedStratumColumn(r *curve.Reference, name, stratumCol string) error {
+	if stratumCol == "" && len(r.Strata) > 1 {
+		return fmt.Errorf("%s: %w: the reference has strata %s; add a column named %s (or name it with the stratum-column option)",
+			name, ErrNoStratum, StrataNames(r), strings.Join(intake.UsualNames.Stratum, " or "))
 	}
 	return nil
 }
@@ -116,17 +130,41 @@ var Columns = []string{"z", "centile", "flag"}
 // fewer cells than the header (one whose quoting could not be read) is
 // padded with empty cells, so that the added columns line up.
 func WriteCSV(w io.Writer, header []string, rows []Row) error {
-	cw := csv.NewWriter(w)
-	cw.Write(append(slices.Clone(header), Columns...))
+	cw := NewCSVWriter(w, header)
 	for _, o := range rows {
-		cells := slices.Clone(o.Fields)
-		for len(cells) < len(header) {
-			cells = append(cells, "")
-		}
-		cw.Write(append(cells, ZText(o.Z), CentileText(o.Centile), o.Flag))
+		cw.Write(o)
 	}
-	cw.Flush()
-	return cw.Error()
+	return cw.Flush()
+}
+
+// CSVWriter writes scored rows one at a time, as WriteCSV does.
+type CSVWriter struct {
+	cw    *csv.Writer
+	nf    int
+	cells []string
+}
+
+// NewCSVWriter returns a writer of scored rows under header (with Columns
+// added), which it writes first.
+func NewCSVWriter(w io.Writer, header []string) *CSVWriter {
+	c := &CSVWriter{cw: csv.NewWriter(w), nf: len(header)}
+	c.cw.Write(append(slices.Clone(header), Columns...))
+	return c
+}
+
+// Write writes one row; errors are reported by Flush.
+func (c *CSVWriter) Write(o Row) {
+	c.cells = append(c.cells[:0], o.Fields...)
+	for len(c.cells) < c.nf {
+		c.cells = append(c.cells, "")
+	}
+	c.cw.Write(append(c.cells, ZText(o.Z), CentileText(o.Centile), o.Flag))
+}
+
+// Flush writes what is buffered and returns the first write error.
+func (c *CSVWriter) Flush() error {
+	c.cw.Flush()
+	return c.cw.Error()
 }
 
 // WriteJSON writes the rows as one JSON document with the reference's
