@@ -60,6 +60,9 @@ func (d *planDecoder) plan(rp *rawPlan) *Plan {
 	}
 	if rm.Unit.set {
 		p.Measure.Unit, _ = d.str("measure.unit", rm.Unit)
+		if err := CheckUnit(p.Measure.Unit); err != nil {
+			d.fail("measure.unit", ErrPlanValue, "measure.unit: %v", err)
+		}
 	}
 	if rm.AgeUnit.set {
 		if v, ok := d.str("measure.age_unit", rm.AgeUnit); ok {
@@ -76,7 +79,9 @@ func (d *planDecoder) plan(rp *rawPlan) *Plan {
 	if ri.Unit.set {
 		if s, ok := d.str("input.unit", ri.Unit); ok {
 			in.Unit = s
-			if _, err := unitFactor(s, p.Measure.Unit); err != nil {
+			if err := CheckUnit(s); err != nil {
+				d.fail("input.unit", ErrPlanValue, "input.unit: %v", err)
+			} else if _, err := unitFactor(s, p.Measure.Unit); err != nil {
 				d.fail("input.unit", ErrPlanValue, "input.unit: %v", err)
 			}
 		}

@@ -23,6 +23,38 @@ var unitBase = map[string]struct {
 	"in": {"length", 2.54},
 }
 
+// unitSpellings are other spellings of the known units, for the hint of
+// CheckUnit.
+var unitSpellings = map[string]string{
+	"kgs": "kg", "kilo": "kg", "kilos": "kg", "kilogram": "kg", "kilograms": "kg",
+	"gram": "g", "grams": "g", "gr": "g", "lbs": "lb", "pound": "lb", "pounds": "lb",
+	"ounce": "oz", "ounces": "oz", "cms": "cm", "centimetre": "cm", "centimetres": "cm",
+	"centimeter": "cm", "centimeters": "cm", "millimetre": "mm", "millimetres": "mm",
+	"millimeter": "mm", "millimeters": "mm", "metre": "m", "metres": "m", "meter": "m",
+	"meters": "m", "inch": "in", "inches": "in", "\"": "in",
+}
+
+// CheckUnit refuses a unit name growband does not know: one of g, kg, lb,
+// oz, mm, cm, m, in, or kg/m2 (BMI), or "" for none. A misspelling of a
+// known unit is named in the message.
+func CheckUnit(u string) error {
+	if _, ok := unitBase[u]; ok || u == "" || isBMIUnit(u) {
+		return nil
+	}
+	known := "g, kg, lb, oz, mm, cm, m, in, kg/m2"
+	if k, ok := unitSpellings[strings.ToLower(strings.TrimSpace(u))]; ok {
+		return fmt.Errorf("unknown unit %q: did you mean %q? (known: %s)", u, k, known)
+	}
+	if _, ok := unitBase[strings.ToLower(strings.TrimSpace(u))]; ok {
+		return fmt.Errorf("unknown unit %q: did you mean %q? (known: %s)", u, strings.ToLower(strings.TrimSpace(u)), known)
+	}
+	return fmt.Errorf("unknown unit %q (known: %s)", u, known)
+}
+
+func isBMIUnit(u string) bool {
+	return u == "kg/m2" || u == "kg/m^2" || u == "kg/m²"
+}
+
 // unitFactor returns f such that a value in unit from times f is in unit to.
 // Equal units (including both empty) need no conversion, so any unit name
 // is accepted there.
@@ -61,7 +93,7 @@ func plausibleDefault(measure, unit string) (Range, bool) {
 	case "head":
 		lo, hi, base = 10, 80, "cm"
 	case "bmi":
-		if unit != "" && unit != "kg/m2" && unit != "kg/m^2" && unit != "kg/m²" {
+		if unit != "" && !isBMIUnit(unit) {
 			return Range{}, false
 		}
 		return Range{Min: 5, Max: 100}, true
