@@ -15,6 +15,7 @@ import (
 	"time"
 
 	"growband/curve"
+	"growband/internal/ageunit"
 	"growband/internal/intake"
 	"growband/render"
 )
@@ -205,22 +206,13 @@ func fitSettings(plan *intake.Plan, t *intake.Table, prog progress) *curve.Setti
 	return s
 }
 
-// daysPerMonth converts the automatic log-age offset between units
-// (30.4375 = 365.25/12, the intake convention).
-const daysPerMonth = 365.25 / 12
-
 // autoShift is the offset of fit.age_offset = "auto": one month in the
 // plan's age unit, plus the youngest age's distance below zero, so that
 // log(age + shift) spreads the first months without an extreme at birth.
 func autoShift(t *intake.Table, unit string) float64 {
 	month := 1.0
-	switch unit {
-	case "days":
-		month = daysPerMonth
-	case "weeks":
-		month = daysPerMonth / 7
-	case "years":
-		month = 1.0 / 12
+	if u, err := ageunit.Parse(unit); err == nil {
+		month = ageunit.Months.Convert(1, u)
 	}
 	lo := 0.0
 	for i := range t.Rows {

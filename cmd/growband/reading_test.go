@@ -230,3 +230,54 @@ func TestBuildMisreadings(t *testing.T) {
 		}
 	}
 }
+
+// TestScoreImpossible: impossible values and numbers in a programming
+// language's syntax are refused, on the command line and in a file; a
+// merely extreme value is scored and flagged implausible.
+func TestScoreImpossible(t *testing.T) {
+	f := builtFixture(t)
+	for _, c := range [][2]string{
+		{"12", "0"}, {"12", "-4"}, {"12", "1e308"}, {"-1", "9"},
+		{"12", "1_2"}, {"12", "0x1.2p3"}, {"12", "Inf"}, {"12", "NaN"}, {"1_2", "9"},
+	} {
+		out, errOut, code := gb(t, f.dir, "score", "--ref", f.ref(), "--stratum", "female", "--age", c[0], "--value", c[1])
+		if code == 0 || out != "" {
+			t.Errorf("age %s value %s: exit %d, output %q (%s); want it refused", c[0], c[1], code, out, errOut)
+		}
+	}
+	in := filepath.Join(t.TempDir(), "v.csv")
+	os.WriteFile(in, []byte("sex,age,weight\nF,12,0\nF,12,1e308\nF,-1,9\nF,12,1_2\nF,12,0x1.2p3\nF,12,Inf\nF,12,35\nF,12,9.1\n"), 0o644)
+	out := mustGB(t, f.dir, "score", "--ref", f.ref(), "--in", in, "--stratum-codes", "F=female")
+	header, rows := readCSV(t, out)
+	zc, fc := column(t, header, "z"), column(t, header, "flag")
+	for i, r := range rows[:6] {
+		if r[zc] != "" {
+			t.Errorf("row %d %v scored", i+2, r)
+		}
+	}
+	if rows[6][zc] == "" || !strings.Contains(rows[6][fc], "implausible") {
+		t.Errorf("35 kg at 12 months: %v, want scored and flagged implausible", rows[6])
+	}
+	if rows[7][zc] == "" || rows[7][fc] != "" {
+		t.Errorf("9.1 kg at 12 months: %v, want scored without flags", rows[7])
+	}
+}
+
+// TestAgeUnitSpellings: an LMS table saying "# age_unit = month" scores
+// alike with --age and with --in, since every command reads age units the
+// same way.
+func TestAgeUnitSpellings(t *testing.T) {
+	dir := t.TempDir()
+	lms := filepath.Join(dir, "lms.csv")
+	os.WriteFile(lms, []byte("# age_unit = month\n# measure = weight\n# unit = kg\nage,L,M,S\n0,1,3.3,0.12\n60,1,18.3,0.13\n"), 0o644)
+	one := mustGB(t, dir, "score", "--ref", lms, "--age", "24", "--value", "10")
+	in := filepath.Join(dir, "v.csv")
+	os.WriteFile(in, []byte("age,weight\n24,10\n"), 0o644)
+	file := mustGB(t, dir, "score", "--ref", lms, "--in", in)
+	h1, r1 := readCSV(t, one)
+	h2, r2 := readCSV(t, file)
+	z1, z2 := r1[0][column(t, h1, "z")], r2[0][column(t, h2, "z")]
+	if z1 == "" || z1 != z2 {
+		t.Fatalf("z with --age %q, with --in %q; want the same score", z1, z2)
+	}
+}

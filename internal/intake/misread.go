@@ -6,6 +6,8 @@ import (
 	"math"
 	"slices"
 	"strings"
+
+	"growband/internal/ageunit"
 )
 
 // Misreadings looks at a table read for a build, before anything is
@@ -117,15 +119,15 @@ func ageUnitMisread(t *Table, m Measure) string {
 	if err != nil || m.Unit == "" {
 		return ""
 	}
-	declared, err := ParseAgeUnit(m.AgeUnit)
+	declared, err := ageunit.Parse(m.AgeUnit)
 	if err != nil {
 		return ""
 	}
-	off := func(u AgeUnit) float64 {
+	off := func(u ageunit.Unit) float64 {
 		logs := make([]float64, 0, len(t.Rows))
 		for i := range t.Rows {
 			r := &t.Rows[i]
-			months := u.Convert(r.Age, Months)
+			months := u.Convert(r.Age, ageunit.Months)
 			if r.Value <= 0 || months < 0 {
 				continue
 			}
@@ -142,7 +144,7 @@ func ageUnitMisread(t *Table, m Measure) string {
 		return ""
 	}
 	best, bestOff := declared, have
-	for _, u := range []AgeUnit{Days, Weeks, Months, Years} {
+	for _, u := range []ageunit.Unit{ageunit.Days, ageunit.Weeks, ageunit.Months, ageunit.Years} {
 		if o := off(u); o < bestOff {
 			best, bestOff = u, o
 		}

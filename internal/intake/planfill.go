@@ -3,6 +3,8 @@ package intake
 import (
 	"math"
 	"slices"
+
+	"growband/internal/ageunit"
 )
 
 // plan converts the raw values to a Plan, applying defaults and checking
@@ -66,7 +68,7 @@ func (d *planDecoder) plan(rp *rawPlan) *Plan {
 	}
 	if rm.AgeUnit.set {
 		if v, ok := d.str("measure.age_unit", rm.AgeUnit); ok {
-			u, err := ParseAgeUnit(v)
+			u, err := ageunit.Parse(v)
 			if err != nil {
 				d.fail("measure.age_unit", ErrPlanValue, "measure.age_unit: %v", err)
 			}

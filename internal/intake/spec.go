@@ -3,6 +3,8 @@ package intake
 import (
 	"fmt"
 	"strings"
+
+	"growband/internal/ageunit"
 )
 
 // Decimal is the decimal separator of numbers in a CSV file.
@@ -132,7 +134,7 @@ func (s *Spec) prepare(file string) (*prepared, error) {
 	if p.AgeUnit == "" {
 		p.AgeUnit = "months"
 	}
-	u, err := ParseAgeUnit(p.AgeUnit)
+	u, err := ageunit.Parse(p.AgeUnit)
 	if err != nil {
 		return nil, bad("%v", err)
 	}
