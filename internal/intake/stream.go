@@ -58,7 +58,8 @@ type Reader struct {
 // all; it does not panic on any input.
 func NewReader(r io.Reader, name string, spec *Spec) (*Reader, error) {
 	br := bufio.NewReaderSize(r, 64<<10)
-	magic, _ := br.Peek(4)
+	peek, _ := br.Peek(4)
+	magic := append([]byte(nil), peek...) // Peek's bytes do not survive reading
 	if isXLSX(magic) || isParquet(magic) {
 		data, err := io.ReadAll(br)
 		if err != nil {
