@@ -55,9 +55,11 @@ type Share struct {
 }
 
 // Worm holds the points of a worm plot (van Buuren & Fredriks 2001) of one
-// group: a detrended normal Q-Q plot of the z-scores. Point i has the unit
-// normal quantile Normal[i] of plotting position (i+1/2)/N, the i-th
-// smallest z-score Z[i], and Deviation[i] = Z[i] - Normal[i]; [Lo[i], Hi[i]]
+// group: a detrended normal Q-Q plot of the z-scores. Point i (from 0) has
+// the unit normal quantile Normal[i] of Blom's (1958) plotting position
+// (i+1-3/8)/(N+1/4), which approximates the expected normal order statistic
+// closely (within 0.02 at N = 5), the i-th smallest z-score Z[i], and
+// Deviation[i] = Z[i] - Normal[i]; [Lo[i], Hi[i]]
 // is the approximate pointwise 95% envelope of the deviation for unit-normal
 // data, ±1.96 sqrt(p(1-p)/N)/phi(Normal[i]) with p = Phi(Normal[i]), the
 // large-sample standard error of a sample quantile. Points outside the
@@ -141,6 +143,8 @@ const (
 //   - van Buuren S, Fredriks M (2001). Worm plot: a simple diagnostic device
 //     for modelling growth reference curves. Statistics in Medicine 20,
 //     1259–1277.
+//   - Blom G (1958). Statistical Estimates and Transformed Beta-Variables.
+//     Wiley, New York.
 //   - D'Agostino R B, Belanger A, D'Agostino R B Jr (1990). A suggestion for
 //     using powerful and informative tests of normality. The American
 //     Statistician 44, 316–321.
@@ -311,6 +315,12 @@ func wilson(k, n int, level float64) (lo, hi float64) {
 	return max(mid-half, 0), min(mid+half, 1)
 }
 
+// WormOf returns the worm-plot points of the z-scores z (z is not
+// modified), as Check computes them for each group. Its Normal and Z are
+// also the points of a normal Q–Q plot. It is growband's one computation
+// of these points; render only draws them.
+func WormOf(z []float64) Worm { return worm(z) }
+
 // worm returns the worm-plot points of the z-scores (z is not modified).
 func worm(z []float64) Worm {
 	n := len(z)
@@ -321,7 +331,7 @@ func worm(z []float64) Worm {
 	slices.Sort(w.Z)
 	c := normZ((1 + wilsonLevel) / 2)
 	for i := range n {
-		p := (float64(i) + 0.5) / float64(n) // Hazen plotting position
+		p := blomPosition(i, n)
 		u := normZ(p)
 		w.Normal[i] = u
 		w.Deviation[i] = w.Z[i] - u
@@ -329,6 +339,12 @@ func worm(z []float64) Worm {
 		w.Lo[i], w.Hi[i] = -c*se, c*se
 	}
 	return w
+}
+
+// blomPosition is Blom's (1958) plotting position of the i-th (from 0) of n
+// sorted values, (i+1-3/8)/(n+1/4).
+func blomPosition(i, n int) float64 {
+	return (float64(i+1) - 3.0/8) / (float64(n) + 1.0/4)
 }
 
 // qTests computes the Royston–Wright Q statistics over the groups.

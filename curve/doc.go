@@ -9,7 +9,34 @@
 // fitted by curve/solver. Because B-spline functions are non-negative and sum
 // to one, coefficients ordered across tau (b_tau_k <= b_tau_k+1 componentwise)
 // make the curves ordered at every age: non-crossing is imposed as solver
-// constraints, not checked afterwards. A measurement is scored by locating it
-// among the fitted quantiles of the dense tau grid at its age and mapping the
-// interpolated level to a z-score, z = Phi^-1(centile).
+// constraints, not checked afterwards.
+//
+// The fitted curves describe the body of each stratum's distribution, the
+// centiles its data support directly. Beyond the body a Box–Cox normal
+// fitted at each age to every body centile, its power smoothed across age,
+// carries the distribution out to any z (Tail):
+//
+//	body:    z = Phi^-1(tau), the level interpolated among the fitted quantiles
+//	beyond:  z = Phi^-1(tau_edge) + Zbc(v) - Zbc(q_edge)
+//
+// So the outermost z-scores borrow strength from all centiles instead of
+// resting on the two outermost curves. Why this model rather than a quantile
+// sheet (a tensor-product surface over age and tau fitted with the summed
+// check loss, Schnabel & Eilers 2013, AStA Advances in Statistical Analysis
+// 97, 77–87): the sheet's linear programme has one row per observation and
+// tau, which at registry sizes (10^7 rows, tens of taus) is beyond this
+// machine's time and memory, while the per-tau grid already scales and stays
+// exact; the tail fit works on the fitted curves, so its cost does not grow
+// with n. Measured in tail_test.go on a Box–Cox normal truth (weight-like,
+// 0–60 months, n = 20,000): children with 2 <= |true z| <= 3.5 scored 0.039 z
+// off on average, against 0.124 for the former rule (the line through the
+// two outermost fitted quantiles, extended); on truths that are not Box–Cox
+// normal (a skewed mixture, a height model whose skewness changes sign
+// through puberty; 15,000 a sex) the chart centiles were 0.034–0.061 z off
+// on average, 0.062–0.075 for a Box–Cox normal fitted to the same data by
+// maximum likelihood.
+//
+// A measurement is scored by locating it among the fitted quantiles at its
+// age (or in the tail model beyond them) and mapping its level to a z-score,
+// z = Phi^-1(centile).
 package curve

@@ -4,10 +4,12 @@ import (
 	"bytes"
 	"encoding/json"
 	"errors"
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 	"time"
@@ -77,10 +79,10 @@ func TestFileLayout(t *testing.T) {
 	if err := json.Unmarshal(data, &m); err != nil {
 		t.Fatal(err)
 	}
-	if string(m["format"]) != `"growband-reference"` || string(m["version"]) != "1" {
+	if string(m["format"]) != `"growband-reference"` || string(m["version"]) != strconv.Itoa(FormatVersion) {
 		t.Errorf("format %s version %s", m["format"], m["version"])
 	}
-	if !bytes.HasPrefix(data, []byte("{\n  \"format\": \"growband-reference\",\n  \"version\": 1,")) {
+	if !bytes.HasPrefix(data, []byte(fmt.Sprintf("{\n  \"format\": \"growband-reference\",\n  \"version\": %d,", FormatVersion))) {
 		t.Errorf("file does not start with format and version:\n%.80s", data)
 	}
 	if !bytes.Contains(data, []byte("\n  \"checksum\": \"sha256:")) || !bytes.HasSuffix(data, []byte("\"\n}\n")) {
@@ -146,9 +148,9 @@ func TestFileDamage(t *testing.T) {
 		}
 	}
 	// Newer version: named, with both versions.
-	newer := bytes.Replace(data, []byte(`"version": 1`), []byte(`"version": 2`), 1)
+	newer := bytes.Replace(data, []byte(fmt.Sprintf(`"version": %d`, FormatVersion)), []byte(fmt.Sprintf(`"version": %d`, FormatVersion+1)), 1)
 	err := load(newer)
-	if !errors.Is(err, ErrVersion) || !strings.Contains(err.Error(), "version 2") || !strings.Contains(err.Error(), "version 1") {
+	if !errors.Is(err, ErrVersion) || !strings.Contains(err.Error(), fmt.Sprintf("version %d", FormatVersion+1)) || !strings.Contains(err.Error(), fmt.Sprintf("version %d", FormatVersion)) {
 		t.Errorf("newer version: %v", err)
 	}
 	// Unknown field: refused, named.
@@ -255,7 +257,7 @@ func FuzzLoad(f *testing.F) {
 		b[k] ^= 0x01
 		f.Add(b)
 	}
-	f.Add(bytes.Replace(data, []byte(`"version": 1`), []byte(`"version": 2`), 1))
+	f.Add(bytes.Replace(data, []byte(fmt.Sprintf(`"version": %d`, FormatVersion)), []byte(fmt.Sprintf(`"version": %d`, FormatVersion+1)), 1))
 	f.Add([]byte(`{"format":"growband-reference","version":1,"strata":[{"knots":[0,0,1,1],"taus":[0.5],"coef":[[1,2]]}],"checksum":"x"}`))
 	f.Add([]byte(`{}`))
 	f.Fuzz(func(t *testing.T, b []byte) {
@@ -272,4 +274,40 @@ func FuzzLoad(f *testing.F) {
 			_, _ = r.LMS(st.Name, st.AgeMax)
 		}
 	})
+}
+
+// A file of version 1 has no tail model: Load fits it from the curves, and
+// the scores are those of the reference with the same model fitted.
+func TestFileVersion1(t *testing.T) {
+	r := fileRef()
+	old := *r
+	old.Strata = append([]Stratum(nil), r.Strata...)
+	for i := range old.Strata {
+		old.Strata[i].Tail = nil
+	}
+	old.Format, old.Version = FormatName, 1
+	sum, err := checksum(&old)
+	if err != nil {
+		t.Fatal(err)
+	}
+	data, err := json.Marshal(fileBody{&old, sum})
+	if err != nil {
+		t.Fatal(err)
+	}
+	got, err := Load(bytes.NewReader(data), "v1.json")
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i := range got.Strata {
+		if got.Strata[i].Tail == nil {
+			t.Fatalf("stratum %q: no tail model after loading", got.Strata[i].Name)
+		}
+	}
+	for _, v := range []float64{1, 3, 9, 30} {
+		a, err1 := r.Score("F", 6, v)
+		b, err2 := got.Score("F", 6, v)
+		if err1 != nil || err2 != nil || a != b {
+			t.Errorf("value %g: %+v %v vs loaded %+v %v", v, a, err1, b, err2)
+		}
+	}
 }

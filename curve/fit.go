@@ -40,6 +40,21 @@ const (
 	NonCrossRearrange = "rearrange" // unconstrained fits, coefficients sorted across tau
 )
 
+// CriterionText names a smoothness criterion code in words, as reports and
+// the reference file show it: "Schwarz criterion", "cross-validation" or
+// "fixed in the settings". Unknown codes are returned unchanged.
+func CriterionText(code string) string {
+	switch code {
+	case CriterionSIC:
+		return "Schwarz criterion"
+	case CriterionCV:
+		return "cross-validation"
+	case CriterionFixed:
+		return "fixed in the settings"
+	}
+	return code
+}
+
 // NoKnots as Settings.Knots asks for no interior knots: each curve is a
 // single polynomial of the given degree in T(age).
 const NoKnots = -1
@@ -171,6 +186,7 @@ type config struct {
 	seed       uint64
 	workers    int
 	prog       *progress
+	selectRows int // SelectRows; tests lower it
 }
 
 // maxDegree bounds Settings.Degree; higher degrees buy nothing for growth
@@ -184,7 +200,7 @@ func (s *Settings) resolve() (*config, error) {
 	bad := func(format string, args ...any) (*config, error) {
 		return nil, fmt.Errorf("%w: "+format, append([]any{ErrSettings}, args...)...)
 	}
-	c := &config{seed: s.Seed, medianOnly: s.MedianOnly, prog: &progress{w: s.Progress}}
+	c := &config{seed: s.Seed, medianOnly: s.MedianOnly, prog: &progress{w: s.Progress}, selectRows: SelectRows}
 
 	cent := s.Centiles
 	if cent == nil {
@@ -568,4 +584,51 @@ func (p *progress) printf(format string, args ...any) {
 	p.mu.Lock()
 	defer p.mu.Unlock()
 	fmt.Fprintf(p.w, "growband: "+format+"\n", args...)
+}
+
+// progressEvery is the least time between two progress lines of one
+// stratum's grid (common practice for a terminal: a line every few
+// seconds).
+const progressEvery = 5 * time.Second
+
+// gridProgress reports the curves of one stratum's grid as they are fitted,
+// with an estimate of the time left from the pace so far.
+type gridProgress struct {
+	p      *progress
+	name   string
+	total  int
+	mu     sync.Mutex
+	done   int
+	median bool // counted once, though both halves of a grid solve it
+	start  time.Time
+	last   time.Time
+}
+
+// eta returns the progress of a grid of total solves in stratum name.
+func (p *progress) eta(name string, total int) *gridProgress {
+	now := time.Now()
+	return &gridProgress{p: p, name: name, total: total, start: now, last: now}
+}
+
+// tick counts one solve, reporting at most every progressEvery.
+func (g *gridProgress) tick(tau float64) {
+	if g.p == nil || g.p.w == nil {
+		return
+	}
+	g.mu.Lock()
+	defer g.mu.Unlock()
+	if tau == 0.5 {
+		if g.median {
+			return
+		}
+		g.median = true
+	}
+	g.done++
+	now := time.Now()
+	if now.Sub(g.last) < progressEvery || g.done >= g.total {
+		return
+	}
+	g.last = now
+	left := time.Duration(float64(now.Sub(g.start)) / float64(g.done) * float64(g.total-g.done))
+	g.p.printf("stratum %q: %d of %d centile curves fitted, about %s left", g.name, g.done, g.total, left.Round(time.Second))
 }

@@ -6,6 +6,7 @@ import (
 	"errors"
 	"math"
 	"math/rand/v2"
+	"reflect"
 	"slices"
 	"strings"
 	"testing"
@@ -392,7 +393,7 @@ func TestFitWeightsAndWorkers(t *testing.T) {
 			t.Fatalf("tau %v: 1 worker %v, 3 workers %v", c1.Taus[k], c1.Coef[k], c3.Coef[k])
 		}
 	}
-	if c1.Smoothness != c3.Smoothness {
+	if !reflect.DeepEqual(c1.Smoothness, c3.Smoothness) {
 		t.Errorf("smoothness %+v vs %+v", c1.Smoothness, c3.Smoothness)
 	}
 }

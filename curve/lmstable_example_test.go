@@ -18,7 +18,7 @@ age,L,M,S
 0,0.3487,3.3464,0.14602
 1,0.3127,3.3174,0.14600
 `
-	ref, err := curve.LoadLMSTable(strings.NewReader(table), "who.csv", &curve.LMSTableOptions{Tails: curve.TailsRestricted})
+	ref, err := curve.LoadLMSTable(strings.NewReader(table), "lms-birth.csv", &curve.LMSTableOptions{Tails: curve.TailsRestricted})
 	if err != nil {
 		fmt.Println(err)
 		return

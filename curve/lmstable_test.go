@@ -13,10 +13,10 @@ import (
 	"gonum.org/v1/gonum/stat/distuv"
 )
 
-// whoBirth is WHO Child Growth Standards 2006, weight-for-age, boys: L, M, S
+// publishedBirthLMS is WHO Child Growth Standards 2006, weight-for-age, boys: L, M, S
 // at birth (from memory: 0.3487, 3.3464, 0.14602) and at day 1 (only used to
 // make a two-row table; its values do not enter any expected number).
-const whoBirth = "# age_unit = days\n# measure = weight\n# unit = kg\nage,L,M,S\n0,0.3487,3.3464,0.14602\n1,0.3127,3.3174,0.14600\n"
+const publishedBirthLMS = "# age_unit = days\n# measure = weight\n# unit = kg\nage,L,M,S\n0,0.3487,3.3464,0.14602\n1,0.3127,3.3174,0.14600\n"
 
 func mustTable(t testing.TB, text string, opt *LMSTableOptions) *Reference {
 	t.Helper()
@@ -27,7 +27,7 @@ func mustTable(t testing.TB, text string, opt *LMSTableOptions) *Reference {
 	return r
 }
 
-func TestLMSTableWHOBirth(t *testing.T) {
+func TestLMSTablePublishedBirthRows(t *testing.T) {
 	// Expected z: computed by hand from the triple above with the formulae of
 	// Cole (1990) and the WHO (2006) restricted rule, rounded to 3 decimals.
 	cases := []struct {
@@ -39,7 +39,7 @@ func TestLMSTableWHOBirth(t *testing.T) {
 		{1.8, -3.819, -3.740},
 	}
 	for _, tails := range []string{"", TailsPlain, TailsRestricted} {
-		r := mustTable(t, whoBirth, &LMSTableOptions{Tails: tails})
+		r := mustTable(t, publishedBirthLMS, &LMSTableOptions{Tails: tails})
 		if r.Measure != "weight" || r.Unit != "kg" || r.AgeUnit != "days" {
 			t.Errorf("header keys: %q %q %q", r.Measure, r.Unit, r.AgeUnit)
 		}
@@ -66,11 +66,11 @@ func TestLMSTableWHOBirth(t *testing.T) {
 		}
 	}
 	// The tails line of the file is read; the caller's option wins.
-	r := mustTable(t, "# tails = restricted\n"+whoBirth, nil)
+	r := mustTable(t, "# tails = restricted\n"+publishedBirthLMS, nil)
 	if r.Tails != TailsRestricted {
 		t.Fatalf("tails %q", r.Tails)
 	}
-	if r := mustTable(t, "# tails = restricted\n"+whoBirth, &LMSTableOptions{Tails: TailsPlain}); r.Tails != TailsPlain {
+	if r := mustTable(t, "# tails = restricted\n"+publishedBirthLMS, &LMSTableOptions{Tails: TailsPlain}); r.Tails != TailsPlain {
 		t.Fatalf("tails %q after option", r.Tails)
 	}
 }
@@ -131,7 +131,7 @@ func TestLMSTableInterpolation(t *testing.T) {
 }
 
 func TestLMSTableAgeRange(t *testing.T) {
-	r := mustTable(t, whoBirth, nil)
+	r := mustTable(t, publishedBirthLMS, nil)
 	for _, age := range []float64{-0.5, 1.5, math.NaN()} {
 		_, e1 := r.Score("", age, 3)
 		_, e2 := r.Quantile("", age, 0.5)
@@ -178,7 +178,7 @@ func TestLMSTableVelocity(t *testing.T) {
 }
 
 func TestLMSTableRestrictedRoundTrip(t *testing.T) {
-	r := mustTable(t, whoBirth, &LMSTableOptions{Tails: TailsRestricted})
+	r := mustTable(t, publishedBirthLMS, &LMSTableOptions{Tails: TailsRestricted})
 	for _, z := range []float64{-4.5, -3.2, -3, 0.4, 3, 3.6, 5} {
 		q, err := r.Quantile("", 0.5, distuv.UnitNormal.CDF(z))
 		if err != nil {
@@ -230,8 +230,8 @@ func TestLMSTableStrataAndFiles(t *testing.T) {
 
 	// LoadFile reads *.csv as a table; Load recognises a table by content.
 	dir := t.TempDir()
-	csvPath := filepath.Join(dir, "who.csv")
-	txtPath := filepath.Join(dir, "who.txt")
+	csvPath := filepath.Join(dir, "lms-birth.csv")
+	txtPath := filepath.Join(dir, "lms-birth.txt")
 	for _, p := range []string{csvPath, txtPath} {
 		if err := os.WriteFile(p, []byte(text), 0o644); err != nil {
 			t.Fatal(err)
@@ -320,7 +320,7 @@ func TestLMSTableErrors(t *testing.T) {
 }
 
 func FuzzLoadLMSTable(f *testing.F) {
-	f.Add([]byte(whoBirth))
+	f.Add([]byte(publishedBirthLMS))
 	f.Add([]byte("# age_unit = months\nsex;age;L;M;S\nm;0;0.3;3;0.1\nm;1;0.3;3;0.1\n"))
 	f.Add([]byte("# tails = restricted\n# age_unit = d\nage,L,M,S\n0,0,1e-300,1e300\n1,-1e300,1,1\n"))
 	f.Add([]byte("age,L,M,S\n\"0,1,2,3\n"))

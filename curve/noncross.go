@@ -25,7 +25,8 @@ import (
 // NonCrossConstrain fits the median first, then steps outward through the
 // sorted tau grid, each fit constrained by its inner neighbour: b_tau >=
 // b_prev for tau above the median (G = I, h = b_prev) and -b_tau >= -b_prev
-// below it; each solve is warm-started from the neighbour's solution. This
+// below it; each solve is warm-started from the neighbour's solution
+// (solver.SolveGrid with solver.Settings.Ordered). This
 // is the stepwise scheme of Wu & Liu (2009), here with the componentwise
 // B-spline sufficient condition as the constraint set. The constraints are
 // always feasible (b_tau = b_prev satisfies them) and bind only where the
@@ -57,90 +58,85 @@ const orderTol = 1e-9
 // fitGrid fits the sorted grid taus, which must contain 0.5, without
 // crossing, and returns the coefficient vectors in the order of taus.
 // median, if not nil, is the already solved unconstrained median fit of the
-// same problem.
+// same problem; it starts the grid.
+//
+// Both modes solve the grid by solver.SolveGrid, which walks outward from
+// the median, each tau warm-started from its neighbour and verified on the
+// full data; NonCrossConstrain adds the ordering constraints
+// (solver.Settings.Ordered). The two halves of the grid, below and above
+// the median, are solved at the same time, each from the median.
 func fitGrid(pl *pool, m *model, y, w []float64, lambda float64, taus []float64, mode string, median *solver.Solution) ([][]float64, error) {
-	return fitGridOn(pl, m.x, m.pen, y, w, lambda, taus, mode, median)
+	return fitGridWith(pl, m.x, m.pen, y, w, lambda, taus, mode, median, nil)
 }
 
 func fitGridOn(pl *pool, x, pen *solver.Design, y, w []float64, lambda float64, taus []float64, mode string, median *solver.Solution) ([][]float64, error) {
+	return fitGridWith(pl, x, pen, y, w, lambda, taus, mode, median, nil)
+}
+
+// fitGridWith is fitGridOn that calls solved, if not nil, after each tau is
+// solved (the median twice, once by each half).
+func fitGridWith(pl *pool, x, pen *solver.Design, y, w []float64, lambda float64, taus []float64, mode string, median *solver.Solution, solved func(float64)) ([][]float64, error) {
 	mid := slices.Index(taus, 0.5)
 	if mid < 0 {
 		panic("curve: tau grid without the median")
 	}
-	problem := func(tau float64) *solver.Problem {
-		p := &solver.Problem{Y: y, X: x, W: w, Tau: tau}
-		if lambda > 0 && pen != nil {
-			p.Lambda, p.Penalty = lambda, pen
-		}
-		return p
+	pr := &solver.Problem{Y: y, X: x, W: w}
+	if lambda > 0 && pen != nil {
+		pr.Lambda, pr.Penalty = lambda, pen
 	}
-	if median == nil {
-		var err error
-		median, err = pl.solve(problem(0.5), nil)
+	constrain := mode == NonCrossConstrain
+	coef := make([][]float64, len(taus))
+	halves := [2][]float64{taus[:mid+1], taus[mid:]}
+	err := parallel(2, func(h int) error {
+		half := halves[h]
+		sols, err := pl.grid(pr, half, &solver.Settings{Start: median, Ordered: constrain, Solved: solved})
 		if err != nil {
-			return nil, fmt.Errorf("tau 0.5: %w", err)
+			return err
 		}
+		off := 0
+		if h == 1 {
+			off = mid
+		}
+		for k, s := range sols {
+			if h == 1 && k == 0 {
+				continue // the median, solved by both halves alike
+			}
+			coef[off+k] = slices.Clone(s.Coef)
+		}
+		return nil
+	})
+	if err != nil {
+		return nil, err
 	}
 	p := x.Cols
-	coef := make([][]float64, len(taus))
-	coef[mid] = slices.Clone(median.Coef)
-	constrain := mode == NonCrossConstrain
-
-	// chain walks from mid in direction dir (+1 up, -1 down).
-	chain := func(dir int) error {
-		var g [][]float64
-		if constrain {
-			g = make([][]float64, p)
-			for j := range g {
-				g[j] = make([]float64, p)
-				g[j][j] = float64(dir)
-			}
-		}
-		prev := median
-		for k := mid + dir; k >= 0 && k < len(taus); k += dir {
-			pr := problem(taus[k])
-			inner := coef[k-dir]
-			if constrain {
-				h := make([]float64, p)
-				for j := range h {
-					h[j] = float64(dir) * inner[j]
-				}
-				pr.G, pr.H = g, h
-			}
-			s, err := pl.solve(pr, prev)
-			if err != nil {
-				return fmt.Errorf("tau %g: %w", taus[k], err)
-			}
-			b := slices.Clone(s.Coef)
-			if constrain {
+	if constrain {
+		// Outward from the median, clamp rounding-sized violations of the
+		// order so that it holds exactly.
+		for _, dir := range []int{1, -1} {
+			for k := mid + dir; k >= 0 && k < len(taus); k += dir {
+				inner := coef[k-dir]
+				b := coef[k]
 				for j := range b {
 					gap := float64(dir) * (b[j] - inner[j]) // >= 0 when ordered
 					if gap < 0 {
 						if -gap > orderTol*(1+math.Abs(inner[j])) {
-							return fmt.Errorf("tau %g: solver answer violates the ordering constraint on coefficient %d by %g", taus[k], j, -gap)
+							return nil, fmt.Errorf("tau %g: solver answer violates the ordering constraint on coefficient %d by %g", taus[k], j, -gap)
 						}
 						b[j] = inner[j]
 					}
 				}
 			}
-			coef[k] = b
-			prev = s
 		}
-		return nil
+		return coef, nil
 	}
-	if err := parallel(2, func(i int) error { return chain(1 - 2*i) }); err != nil {
-		return nil, err
-	}
-	if !constrain {
-		col := make([]float64, len(taus))
-		for j := range p {
-			for k := range coef {
-				col[k] = coef[k][j]
-			}
-			slices.Sort(col)
-			for k := range coef {
-				coef[k][j] = col[k]
-			}
+	col := make([]float64, len(taus))
+	for j := range p {
+		for k := range coef {
+			col[k] = coef[k][j]
+		}
+		slices.Sort(col)
+		for k := range coef {
+			coef[k][j] = col[k]
 		}
 	}
 	return coef, nil

@@ -158,7 +158,8 @@ func (r *Reference) Curve(dst []float64, stratum string, age float64) ([]float64
 	}
 	dst = sized(dst, len(st.Taus))
 	w := make([]float64, r.Degree+1)
-	return dst, curveAt(dst, st, b, t, w, 0)
+	_, _, err = r.levelsAt(dst, st, b, age, t, w, true)
+	return dst, err
 }
 
 // tauBracket locates tau in the grid for interpolation: it returns k and
@@ -212,35 +213,57 @@ func (r *Reference) quantile(stratum string, age, tau float64, order int) (float
 	if st.LMS != nil {
 		return r.lmsQuantile(st, age, tau, order)
 	}
-	k, u, err := tauBracket(st.Taus, tau)
-	if err != nil {
-		return 0, err
-	}
 	t, err := r.transform(st, b, age)
 	if err != nil {
 		return 0, err
 	}
 	var buf [scoreMaxDegree + 1]float64
 	w := buf[:r.Degree+1]
-	// Only the bracketing curves are needed, but for order 0 the running
-	// maximum of curveAt must see the curves below; evaluate them all so the
-	// answer is the one Curve and Score use.
 	q := make([]float64, len(st.Taus))
-	if err := curveAt(q, st, b, t, w, order); err != nil {
+	lo, hi, err := r.levelsAt(q, st, b, age, t, w, false)
+	if err != nil {
 		return 0, err
 	}
-	v := q[k]
-	if u != 0 {
-		v += u * (q[k+1] - q[k])
-	}
 	if order == 0 {
-		return v, nil
+		return r.levelValue(st, b, q, lo, hi, age, tau)
 	}
 	d, err := ageSlope(r.AgeScale, st.AgeMin, st.AgeMax, age)
 	if err != nil {
 		return 0, fmt.Errorf("%w: age scale: %w", ErrInvalid, err)
 	}
+	if tau < st.Taus[lo]-tauSlack || tau > st.Taus[hi]+tauSlack {
+		// Beyond the body the quantile follows the tail model, whose
+		// parameters are tabulated in age: differentiate numerically.
+		return r.ageDerivative(stratum, st, age, tau)
+	}
+	k, u, err := tauBracket(st.Taus[lo:hi+1], min(max(tau, st.Taus[lo]), st.Taus[hi]))
+	if err != nil {
+		return 0, err
+	}
+	if err := curveAt(q, st, b, t, w, 1); err != nil {
+		return 0, err
+	}
+	v := q[lo+k]
+	if u != 0 {
+		v += u * (q[lo+k+1] - q[lo+k])
+	}
 	return v * d, nil
+}
+
+// ageDerivative returns dQ_tau/dage by a central difference quotient (one
+// sided at the ends of the age range) of step slopeStep times the range.
+func (r *Reference) ageDerivative(stratum string, st *Stratum, age, tau float64) (float64, error) {
+	h := slopeStep * (st.AgeMax - st.AgeMin)
+	a0, a1 := max(age-h, st.AgeMin), min(age+h, st.AgeMax)
+	q0, err := r.quantile(stratum, a0, tau, 0)
+	if err != nil {
+		return 0, err
+	}
+	q1, err := r.quantile(stratum, a1, tau, 0)
+	if err != nil {
+		return 0, err
+	}
+	return (q1 - q0) / (a1 - a0), nil
 }
 
 // slopeStep is the step, as a fraction of the stratum's age range, of the
@@ -314,11 +337,9 @@ func (r *Reference) Table(stratum string, ages, taus []float64) (*CentileTable, 
 	if st.LMS != nil {
 		return r.lmsTable(st, ages, taus)
 	}
-	ks := make([]int, len(taus))
-	us := make([]float64, len(taus))
-	for j, tau := range taus {
-		if ks[j], us[j], err = tauBracket(st.Taus, tau); err != nil {
-			return nil, err
+	for _, tau := range taus {
+		if !(tau > 0 && tau < 1) {
+			return nil, fmt.Errorf("%w: tau %g not in (0, 1)", ErrTauRange, tau)
 		}
 	}
 	tab := &CentileTable{
@@ -333,15 +354,14 @@ func (r *Reference) Table(stratum string, ages, taus []float64) (*CentileTable, 
 		if err != nil {
 			return nil, err
 		}
-		if err := curveAt(q, st, b, t, w, 0); err != nil {
+		lo, hi, err := r.levelsAt(q, st, b, age, t, w, false)
+		if err != nil {
 			return nil, err
 		}
 		row := make([]float64, len(taus))
-		for j := range taus {
-			k, u := ks[j], us[j]
-			row[j] = q[k]
-			if u != 0 {
-				row[j] += u * (q[k+1] - q[k])
+		for j, tau := range taus {
+			if row[j], err = r.levelValue(st, b, q, lo, hi, age, tau); err != nil {
+				return nil, err
 			}
 		}
 		tab.Values[i] = row
@@ -394,6 +414,11 @@ func (r *Reference) Validate() error {
 		if _, err := r.transform(st, b, st.AgeMax); err != nil {
 			return err
 		}
+		if st.Conditional != nil {
+			if err := st.Conditional.check(st.Name); err != nil {
+				return err
+			}
+		}
 	}
 	return nil
 }
@@ -413,6 +438,11 @@ func (r *Reference) ready() error {
 		b, err := spline.New(st.Knots, r.Degree)
 		if err != nil { // Validate built the same basis
 			return fmt.Errorf("%w: stratum %q: %w", ErrInvalid, st.Name, err)
+		}
+		if st.Tail == nil { // a file of version 1: fit the tail model once
+			if st.Tail, err = r.tailOf(st, b); err != nil {
+				return fmt.Errorf("%w: %w", ErrInvalid, err)
+			}
 		}
 		st.basis = b
 	}
@@ -496,6 +526,11 @@ func checkStratum(st *Stratum, degree int) (*spline.Basis, error) {
 					return nil, bad("band %d (tau %g) holds %g", i, bd.Tau, v)
 				}
 			}
+		}
+	}
+	if st.Tail != nil {
+		if err := checkTail(st); err != nil {
+			return nil, err
 		}
 	}
 	sm := st.Smoothness

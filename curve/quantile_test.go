@@ -96,8 +96,8 @@ func linearStratum(name string, scale AgeScale, degree int, ageMin, ageMax float
 func normalRef(mean, sd float64) *Reference {
 	st := linearStratum("", AgeScale{Kind: "identity"}, 3, 0, 10, []float64{2.5, 5, 7.5}, testTaus(), mean, 0,
 		func(tau float64) float64 { return sd * distuv.UnitNormal.Quantile(tau) })
-	return &Reference{Format: FormatName, Version: FormatVersion, Measure: "weight", Unit: "kg", AgeUnit: "years",
-		AgeScale: AgeScale{Kind: "identity"}, Degree: 3, Caution: Caution, Strata: []Stratum{st}}
+	return (&Reference{Format: FormatName, Version: FormatVersion, Measure: "weight", Unit: "kg", AgeUnit: "years",
+		AgeScale: AgeScale{Kind: "identity"}, Degree: 3, Caution: Caution, Strata: []Stratum{st}}).withTails()
 }
 
 // twoStrata returns a cubic reference on a log age scale with strata "F"
@@ -110,8 +110,8 @@ func twoStrata() *Reference {
 		func(tau float64) float64 { return 1.1 * distuv.UnitNormal.Quantile(tau) })
 	m := linearStratum("M", scale, 3, 0.5, 36, []float64{1.5, 2.5}, taus, 3.5, 2.3,
 		func(tau float64) float64 { return math.Exp(0.3 * distuv.UnitNormal.Quantile(tau)) })
-	return &Reference{Format: FormatName, Version: FormatVersion, Measure: "weight", Unit: "kg", AgeUnit: "months",
-		AgeScale: scale, Degree: 3, Caution: Caution, Strata: []Stratum{f, m}}
+	return (&Reference{Format: FormatName, Version: FormatVersion, Measure: "weight", Unit: "kg", AgeUnit: "months",
+		AgeScale: scale, Degree: 3, Caution: Caution, Strata: []Stratum{f, m}}).withTails()
 }
 
 // near reports |got-want| <= tol*max(1, |want|).
@@ -220,8 +220,6 @@ func TestQuantileErrors(t *testing.T) {
 		{"above age range", "F", 24.01, 0.5, ErrAgeRange},
 		{"stratum's own range", "M", 0.4, 0.5, ErrAgeRange},
 		{"NaN age", "F", math.NaN(), 0.5, ErrAgeRange},
-		{"tau below grid", "F", 5, 0.001, ErrTauRange},
-		{"tau above grid", "F", 5, 0.999, ErrTauRange},
 		{"tau 0", "F", 5, 0, ErrTauRange},
 		{"tau NaN", "F", 5, math.NaN(), ErrTauRange},
 		{"unknown stratum", "X", 5, 0.5, ErrUnknownStratum},
@@ -232,6 +230,17 @@ func TestQuantileErrors(t *testing.T) {
 		}
 		if _, err := r.Velocity(c.stratum, c.age, c.tau); !errors.Is(err, c.want) {
 			t.Errorf("%s: Velocity error %v, want %v", c.name, err, c.want)
+		}
+	}
+	// Beyond the grid the tail model gives the quantile, which scores back
+	// its level.
+	for _, tau := range []float64{0.0001, 0.001, 0.999, 0.9999} {
+		q, err := r.Quantile("F", 5, tau)
+		if err != nil {
+			t.Fatalf("tau %g: %v", tau, err)
+		}
+		if s, err := r.Score("F", 5, q); err != nil || !near(s.Centile, 100*tau, 1e-9) {
+			t.Errorf("tau %g: quantile %g scores %+v, %v", tau, q, s, err)
 		}
 	}
 	// The ends of the range are inside it.
@@ -266,9 +275,10 @@ func TestCurveMatchesQuantile(t *testing.T) {
 			if k > 0 && dst[k] < dst[k-1] {
 				t.Errorf("age %g: curve decreases at tau %g", age, tau)
 			}
-			// Marsden's identity: the exact curve is a + b log(age+1) + f(tau).
+			// Marsden's identity: the exact curve is a + b log(age+1) +
+			// f(tau) in the body (beyond it the tail model decides).
 			want := 3.5 + 2.3*math.Log(age+1) + math.Exp(0.3*distuv.UnitNormal.Quantile(tau))
-			if !near(dst[k], want, 1e-12) {
+			if lo, hi := st.body(); k >= lo && k <= hi && !near(dst[k], want, 1e-12) {
 				t.Errorf("age %g tau %g: %.15g, want %.15g", age, tau, dst[k], want)
 			}
 		}
@@ -285,13 +295,31 @@ func TestVelocity(t *testing.T) {
 		b       float64
 		age     float64
 	}{{"F", 2.1, 0}, {"F", 2.1, 0.0001}, {"F", 2.1, 3.7}, {"F", 2.1, 24}, {"M", 2.3, 0.5}, {"M", 2.3, 12}, {"M", 2.3, 36}} {
-		for _, tau := range []float64{0.005, 0.1, 0.5, 0.555, 0.995} {
+		for _, tau := range []float64{0.1, 0.5, 0.555, 0.9} {
 			got, err := r.Velocity(c.stratum, c.age, tau)
 			if err != nil {
 				t.Fatal(err)
 			}
 			if want := c.b / (c.age + 1); !near(got, want, 1e-8) {
 				t.Errorf("%s age %g tau %g: velocity %.12g, want %.12g", c.stratum, c.age, tau, got, want)
+			}
+		}
+		// Beyond the body the tail model's L, M and S are linear between
+		// tabulated ages: the slope is that of the tail's quantile, a
+		// difference quotient over the step 1e-4 of the range (1e-6
+		// relative: our tolerance for its truncation error).
+		for _, tau := range []float64{0.005, 0.995} {
+			got, err := r.Velocity(c.stratum, c.age, tau)
+			if err != nil {
+				t.Fatal(err)
+			}
+			st, _ := r.Stratum(c.stratum)
+			h := 1e-4 * (st.AgeMax - st.AgeMin)
+			a0, a1 := max(c.age-h, st.AgeMin), min(c.age+h, st.AgeMax)
+			q0, _ := r.Quantile(c.stratum, a0, tau)
+			q1, _ := r.Quantile(c.stratum, a1, tau)
+			if want := (q1 - q0) / (a1 - a0); !near(got, want, 1e-6) {
+				t.Errorf("%s age %g tau %g: tail velocity %.12g, want %.12g", c.stratum, c.age, tau, got, want)
 			}
 		}
 	}
@@ -454,4 +482,23 @@ func TestConcurrentLookups(t *testing.T) {
 	for e := range errs {
 		t.Fatal(e)
 	}
+}
+
+// withTails fits the tail model of every stratum of a reference built by
+// hand, as Fit and Load do, and returns r.
+func (r *Reference) withTails() *Reference {
+	for i := range r.Strata {
+		st := &r.Strata[i]
+		if st.LMS != nil || st.Tail != nil {
+			continue
+		}
+		b, err := checkStratum(st, r.Degree)
+		if err != nil {
+			panic(err)
+		}
+		if st.Tail, err = r.tailOf(st, b); err != nil {
+			panic(err)
+		}
+	}
+	return r
 }

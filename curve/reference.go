@@ -8,7 +8,7 @@ import (
 
 // FormatVersion is the version of the reference file written by Save. Load
 // refuses files of a newer version.
-const FormatVersion = 1
+const FormatVersion = 2
 
 // Caution is written into every reference, table, chart and report.
 const Caution = "This reference describes the sample it was built from. It is not a " +
@@ -66,6 +66,13 @@ type Stratum struct {
 	// LoadLMSTable): the centiles come from the tabulated L, M and S, Knots
 	// and Coef are empty, and Taus equals Chart.
 	LMS *LMSCurve `json:"lms,omitempty"`
+	// Tail models the distribution beyond the centiles the data support
+	// directly (see Tail); nil in an LMS-table stratum, and in files of
+	// version 1, for which Load fits it from the curves.
+	Tail *Tail `json:"tail,omitempty"`
+	// Conditional, when not nil, is the model of growth since the previous
+	// visit (see FitConditional).
+	Conditional *Conditional `json:"conditional,omitempty"`
 
 	// checked records that Reference.ready validated an LMS stratum.
 	checked bool `json:"-"`
@@ -92,6 +99,26 @@ type Smoothness struct {
 	Order         int     `json:"order"`     // difference order of the penalty
 	Criterion     string  `json:"criterion"` // "fixed", "sic" or "cv"
 	Score         float64 `json:"score"`     // criterion value at the choice
+	// ChosenBy says in words how the smoothness was chosen, for readers of
+	// the file: CriterionText(Criterion).
+	ChosenBy string `json:"chosen_by,omitempty"`
+	// EDF is the effective degrees of freedom of the median fit at the
+	// choice: the number of rows it interpolates (Koenker, Ng & Portnoy
+	// 1994); 0 when not computed (cross-validation fits held-out folds).
+	EDF int `json:"edf,omitempty"`
+	// Candidates are the smoothness values tried, in the order tried, with
+	// their criterion values.
+	Candidates []Candidate `json:"candidates,omitempty"`
+}
+
+// Candidate is one smoothness value tried and its criterion value (lower
+// is better); SE is the standard error of a cross-validated score.
+type Candidate struct {
+	InteriorKnots int     `json:"interior_knots"`
+	Lambda        float64 `json:"lambda"`
+	Score         float64 `json:"score"`
+	SE            float64 `json:"se,omitempty"`
+	EDF           int     `json:"edf,omitempty"`
 }
 
 // Flag records a sample-size guard decision: too few observations beyond the

@@ -150,6 +150,7 @@ type candidate struct {
 	lambda float64
 	score  float64
 	se     float64 // standard error of score; 0 for SIC
+	edf    int     // rows the median fit interpolates; 0 when not computed
 	median *solver.Solution
 	err    error
 }
@@ -225,6 +226,7 @@ func chooseSmoothness(pl *pool, r *rows, c *config) (*choice, error) {
 	if err != nil {
 		return nil, err
 	}
+	tried := cands
 
 	// Stage 2: lambda, from none upwards; pick wants the simplest (largest
 	// lambda) first.
@@ -246,6 +248,7 @@ func chooseSmoothness(pl *pool, r *rows, c *config) (*choice, error) {
 			}
 			return ev.eval(m0.model, lambdaSteps[len(lambdaSteps)-i]*unit)
 		})
+		tried = append(tried, lc[1:]...) // lc[0] is the knot stage's winner
 		slices.Reverse(lc)
 		best, err = pick(lc)
 		if err != nil {
@@ -259,10 +262,17 @@ func chooseSmoothness(pl *pool, r *rows, c *config) (*choice, error) {
 		Order:         c.order,
 		Criterion:     criterion,
 		Score:         best.score,
+		EDF:           best.edf,
+	}
+	for _, cd := range tried {
+		if cd.err == nil {
+			sm.Candidates = append(sm.Candidates, Candidate{InteriorKnots: len(cd.model.interior), Lambda: cd.lambda, Score: cd.score, SE: cd.se, EDF: cd.edf})
+		}
 	}
 	if !autoKnots && c.penalty != PenaltyAuto {
 		sm.Criterion = CriterionFixed
 	}
+	sm.ChosenBy = CriterionText(sm.Criterion)
 	return &choice{model: best.model, smooth: sm, median: best.median}, nil
 }
 
@@ -382,15 +392,19 @@ func (ev *evaluator) sic(m *model, lambda float64) candidate {
 	}
 	n := len(r.y)
 	score := 0.0
+	medianEDF := 0
 	for k, tau := range ev.taus() {
 		loss := 0.0
 		for i := range n {
 			loss += r.w[i] * checkLoss(r.y[i]-m.x.Dot(i, sols[k].Coef), tau)
 		}
 		edf := interpolated(sols[k], m.x, r.y)
+		if k == 0 {
+			medianEDF = edf
+		}
 		score += math.Log(max(loss/total, math.SmallestNonzeroFloat64)) + math.Log(neff)/(2*neff)*float64(edf)
 	}
-	return candidate{score: score, median: sols[0]}
+	return candidate{score: score, edf: medianEDF, median: sols[0]}
 }
 
 // interpolated returns the number of data rows a solution interpolates: the
@@ -487,43 +501,13 @@ func folds(r *rows, k int, seed uint64) ([]int, error) {
 	return fold, nil
 }
 
-// fitEach solves the unconstrained fits at taus (taus[0] first, each later
-// one warm-started from the nearest already solved) and returns them in the
-// order of taus.
+// fitEach solves the unconstrained fits at taus (one warm-started grid
+// from the tau nearest the median, solver.SolveGrid) and returns them in
+// the order of taus.
 func fitEach(pl *pool, x *solver.Design, y, w []float64, pen *solver.Design, lambda float64, taus []float64) ([]*solver.Solution, error) {
-	out := make([]*solver.Solution, len(taus))
-	idx := make([]int, len(taus))
-	for i := range idx {
-		idx[i] = i
+	p := &solver.Problem{Y: y, X: x, W: w}
+	if lambda > 0 && pen != nil {
+		p.Lambda, p.Penalty = lambda, pen
 	}
-	// Visit by distance from the first tau so each start is a neighbour.
-	slices.SortStableFunc(idx, func(a, b int) int {
-		da, db := math.Abs(taus[a]-taus[0]), math.Abs(taus[b]-taus[0])
-		switch {
-		case da < db:
-			return -1
-		case da > db:
-			return 1
-		}
-		return 0
-	})
-	for _, i := range idx {
-		var start *solver.Solution
-		bestD := math.Inf(1)
-		for j, s := range out {
-			if s != nil && math.Abs(taus[j]-taus[i]) < bestD {
-				start, bestD = s, math.Abs(taus[j]-taus[i])
-			}
-		}
-		p := &solver.Problem{Y: y, X: x, W: w, Tau: taus[i]}
-		if lambda > 0 && pen != nil {
-			p.Lambda, p.Penalty = lambda, pen
-		}
-		s, err := pl.solve(p, start)
-		if err != nil {
-			return nil, fmt.Errorf("tau %g: %w", taus[i], err)
-		}
-		out[i] = s
-	}
-	return out, nil
+	return pl.grid(p, taus, nil)
 }

@@ -2,10 +2,13 @@ package curve
 
 import (
 	"fmt"
+	"math"
+	"math/rand/v2"
 	"slices"
 	"sync"
 
 	"growband/curve/solver"
+	"growband/spline"
 )
 
 // pool bounds the number of solver calls running at once. Only solver calls
@@ -15,16 +18,11 @@ type pool struct{ tokens chan struct{} }
 
 func newPool(workers int) *pool { return &pool{tokens: make(chan struct{}, max(workers, 1))} }
 
-// solve runs solver.Solve under a token, warm-started from start (may be
-// nil).
-func (pl *pool) solve(p *solver.Problem, start *solver.Solution) (*solver.Solution, error) {
+// grid runs solver.SolveGrid under a token.
+func (pl *pool) grid(p *solver.Problem, taus []float64, s *solver.Settings) ([]*solver.Solution, error) {
 	pl.tokens <- struct{}{}
 	defer func() { <-pl.tokens }()
-	var s *solver.Settings
-	if start != nil {
-		s = &solver.Settings{Start: start}
-	}
-	return solver.Solve(p, s)
+	return solver.SolveGrid(p, taus, s)
 }
 
 // parallel runs f(0), ..., f(n-1) concurrently and returns the error of the
@@ -68,22 +66,91 @@ func fitStrata(groups []*rows, c *config) ([]Stratum, error) {
 	return out, nil
 }
 
+// SelectRows is the stratum size above which the knots and lambda are chosen
+// on a sample of SelectRows rows, one drawn at random from each of
+// SelectRows equal blocks of the age-sorted rows (so the sample covers the
+// ages as the stratum does); the curves are then fitted on every row. The
+// choice costs about seven solves per candidate, each with cold starts
+// between distant taus, while the final grid costs about one pass over the
+// data per tau, so beyond this size the choice would dominate. The
+// criterion's choice depends on n (its penalty is log(n)/2n per
+// interpolated row): on the simulation of recovery_test.go in two strata of
+// 500,000 rows it picks 4 and 5 interior knots on all rows and on samples of
+// 200,000, but 2 and 2 on samples of 50,000 (measured).
+const SelectRows = 200000
+
+// sampleStream is the PCG stream of the selection sample, apart from the
+// bootstrap and cross-validation streams.
+const sampleStream = 1<<63 + 1
+
+// choosesSmoothness reports whether the settings leave the knots or lambda
+// to the criterion.
+func choosesSmoothness(c *config) bool {
+	return (c.knots == 0 && c.knotT == nil) || c.penalty == PenaltyAuto
+}
+
+// sample returns m rows of r, one drawn at random from each of m equal
+// blocks of the rows (sorted by age), with their weights and subjects.
+func (r *rows) sample(m int, seed uint64) *rows {
+	rng := rand.New(rand.NewPCG(seed, sampleStream))
+	n := len(r.y)
+	s := &rows{name: r.name, age: make([]float64, m), t: make([]float64, m),
+		y: make([]float64, m), w: make([]float64, m), nsubj: r.nsubj}
+	if r.subj != nil {
+		s.subj = make([]int, m)
+	}
+	for k := range m {
+		lo, hi := k*n/m, (k+1)*n/m
+		i := lo + rng.IntN(hi-lo)
+		s.age[k], s.t[k], s.y[k], s.w[k] = r.age[i], r.t[i], r.y[i], r.w[i]
+		if r.subj != nil {
+			s.subj[k] = r.subj[i]
+		}
+	}
+	return s
+}
+
 // fitStratum runs the whole fit of one stratum: smoothness, guard, tau grid,
 // bands.
 func fitStratum(pl *pool, r *rows, c *config) (*Stratum, error) {
 	n := len(r.y)
-	c.prog.printf("stratum %q: %d rows, choosing smoothness", r.name, n)
-	ch, err := chooseSmoothness(pl, r, c)
+	sel := r
+	if n > c.selectRows && choosesSmoothness(c) {
+		sel = r.sample(c.selectRows, c.seed)
+		c.prog.printf("stratum %q: %d rows, choosing smoothness on an age-stratified sample of %d", r.name, n, c.selectRows)
+	} else {
+		c.prog.printf("stratum %q: %d rows, choosing smoothness", r.name, n)
+	}
+	ch, err := chooseSmoothness(pl, sel, c)
 	if err != nil {
 		return nil, err
 	}
 	m := ch.model
+	if sel != r {
+		// The final fit is on every row: the chosen knot count placed at
+		// the quantiles of all the ages (as without sampling), lambda in
+		// the units of all the weights.
+		interior := ch.model.interior
+		if c.knotT == nil {
+			if k, err := spline.QuantileKnots(r.t, len(interior)); err == nil && len(k) == len(interior) {
+				interior = k
+			}
+		}
+		if m, err = newModel(r, interior, c.degree, c.order); err != nil {
+			return nil, err
+		}
+		total, _ := r.weight()
+		part, _ := sel.weight()
+		ch.smooth.Lambda *= total / part
+		ch.median = nil
+	}
 	windows := guardWindows(r, c.windows, c.scale)
 	taus, dropped := tauGrid(c.chart, windows, c.guardMin)
 	flags := append(chartFlags(c.chart, windows, c.guardMin), dropped...)
 	c.prog.printf("stratum %q: %d interior knots, lambda %.4g (%s); fitting %d centile curves",
-		r.name, ch.smooth.InteriorKnots, ch.smooth.Lambda, ch.smooth.Criterion, len(taus))
-	coef, err := fitGrid(pl, m, r.y, r.w, ch.smooth.Lambda, taus, c.nonCross, ch.median)
+		r.name, ch.smooth.InteriorKnots, ch.smooth.Lambda, ch.smooth.ChosenBy, len(taus))
+	eta := c.prog.eta(r.name, len(taus))
+	coef, err := fitGridWith(pl, m.x, m.pen, r.y, r.w, ch.smooth.Lambda, taus, c.nonCross, ch.median, eta.tick)
 	if err != nil {
 		return nil, err
 	}
@@ -98,6 +165,18 @@ func fitStratum(pl *pool, r *rows, c *config) (*Stratum, error) {
 		Chart:      slices.Clone(c.chart),
 		Smoothness: ch.smooth,
 		Flags:      flags,
+	}
+	neffMin := math.Inf(1)
+	for _, w := range windows {
+		neffMin = min(neffMin, w.neff)
+	}
+	lo, hi := bodyLimits(taus, neffMin)
+	b, err := spline.New(st.Knots, c.degree)
+	if err != nil {
+		return nil, err
+	}
+	if st.Tail, err = fitTail(st, b, c.scale, c.degree, lo, hi); err != nil {
+		return nil, err
 	}
 	if c.boot > 0 {
 		st.Bands, err = bootstrapBands(pl, r, m, st, c)

@@ -19,9 +19,9 @@ type ScoreFlags uint8
 
 // The remarks Score can make.
 const (
-	// FlagBeyondTail: the measurement lies outside the outermost fitted
-	// centiles, so its z-score comes from the tail rule (see Score) rather
-	// than from interpolation between fitted curves.
+	// FlagBeyondTail: the measurement lies outside every fitted centile
+	// curve of the tau grid, so its z-score rests on the tail model alone
+	// (see Tail) rather than on a curve fitted near it.
 	FlagBeyondTail ScoreFlags = 1 << iota
 	// FlagImplausible: |z| > ImplausibleZ.
 	FlagImplausible
@@ -68,23 +68,23 @@ type Score struct {
 }
 
 // Score places a measurement of the given value at the given age in the
-// stratum's fitted centiles and returns its z-score and centile.
+// stratum's distribution and returns its z-score and centile.
 //
 // At the age the fitted quantiles q_k of the grid taus tau_k are
 // non-decreasing in k (by construction; rounding inversions are turned into
-// ties). With z_k = Phi^-1(tau_k):
+// ties). Within the body of the distribution (the grid taus from Tail.Lo to
+// Tail.Hi, those the data support directly), with z_k = Phi^-1(tau_k):
 //
 //   - q_k < value < q_k+1: z is linear in the value between (q_k, z_k) and
 //     (q_k+1, z_k+1). This is monotone and exact at the grid: a value equal
 //     to q_k scores z_k.
 //   - value equal to several tied q_j..q_m: z = (z_j + z_m)/2, the middle
 //     of the levels it matches.
-//   - value beyond the outermost fitted quantiles (tail rule): the line
-//     through the two outermost distinct fitted quantiles of that side,
-//     (q_0, z_0) and (q_1, z_1) below, (q_n-2, z_n-2) and (q_n-1, z_n-1)
-//     above, is extended, and FlagBeyondTail is set. This assumes the
-//     distribution beyond the fitted range keeps the local spread in z units
-//     of its outermost fitted band, as a normal tail would.
+//
+// Beyond the body the stratum's tail model decides: a Box–Cox normal fitted
+// to all the body's centiles, joined continuously at the body's edge (see
+// Tail for the rule, its reasons and references). FlagBeyondTail marks a
+// value beyond every fitted curve of the grid.
 //
 // A stratum of an LMS table (Stratum.LMS) is scored by the LMS formula
 // instead, as documented on LoadLMSTable.
@@ -92,8 +92,9 @@ type Score struct {
 // The centile is 100*Phi(z). FlagImplausible marks |z| > ImplausibleZ and
 // FlagSparse a value beyond a centile flagged by the sample-size guard.
 // Errors wrap ErrUnknownStratum, ErrAgeRange (never extrapolated in age),
-// ErrValue (NaN or infinite value) or ErrDegenerate (all fitted quantiles
-// equal at the age).
+// ErrValue (NaN or infinite value, or one outside the tail model's support:
+// zero or below for a positive measurement) or ErrDegenerate (all body
+// quantiles equal at the age, or no tail model fits).
 func (r *Reference) Score(stratum string, age, value float64) (Score, error) {
 	st, b, err := r.lookup(stratum)
 	if err != nil {
@@ -122,12 +123,38 @@ func (ws *scoreSpace) score(r *Reference, st *Stratum, b *spline.Basis, age, val
 	}
 	ws.w = sized(ws.w, r.Degree+1)
 	ws.q = sized(ws.q, len(st.Taus))
-	if err := curveAt(ws.q, st, b, t, ws.w, 0); err != nil {
+	lo, hi, err := r.levelsAt(ws.q, st, b, age, t, ws.w, false)
+	if err != nil {
 		return Score{}, err
 	}
-	z, flags, err := place(st.Taus, ws.q, value)
-	if err != nil {
-		return Score{}, fmt.Errorf("stratum %q, age %g: %w", st.Name, age, err)
+	var z float64
+	var flags ScoreFlags
+	switch q := ws.q; {
+	case !(q[hi]-q[lo] > monoSlack*max(math.Abs(q[lo]), math.Abs(q[hi]))):
+		// The body's curves coincide here (up to the solver's rounding):
+		// there is no spread to place a value in.
+		return Score{}, fmt.Errorf("stratum %q, age %g: %w: the centiles from %g to %g all equal %g",
+			st.Name, age, ErrDegenerate, st.Taus[lo], st.Taus[hi], q[lo])
+	case value < q[lo] || value > q[hi]:
+		k := lo
+		if value > q[hi] {
+			k = hi
+		}
+		tl, err := r.tailOf(st, b)
+		if err == nil {
+			z, err = tl.tailZ(age, q[k], st.Taus[k], value)
+		}
+		if err != nil {
+			return Score{}, fmt.Errorf("stratum %q, age %g: %w", st.Name, age, err)
+		}
+		if value < q[0] || value > q[len(q)-1] {
+			flags = FlagBeyondTail
+		}
+	default:
+		z, err = place(st.Taus[lo:hi+1], q[lo:hi+1], value)
+		if err != nil {
+			return Score{}, fmt.Errorf("stratum %q, age %g: %w", st.Name, age, err)
+		}
 	}
 	p := normP(z)
 	if math.Abs(z) > ImplausibleZ {
@@ -144,35 +171,30 @@ func (ws *scoreSpace) score(r *Reference, st *Stratum, b *spline.Basis, age, val
 	return Score{Centile: 100 * p, Z: z, Flags: flags}, nil
 }
 
-// place returns the z-score of v among the non-decreasing fitted quantiles q
-// of the levels taus, by the rules documented on Score.
-func place(taus, q []float64, v float64) (float64, ScoreFlags, error) {
+// place returns the z-score of v, which lies within the non-decreasing
+// fitted quantiles q of the levels taus (the body), by the rules documented
+// on Score.
+func place(taus, q []float64, v float64) (float64, error) {
 	n := len(q)
 	if !(q[0] < q[n-1]) {
-		return 0, 0, fmt.Errorf("%w: all equal %g", ErrDegenerate, q[0])
+		return 0, fmt.Errorf("%w: all equal %g", ErrDegenerate, q[0])
 	}
 	lo := sort.SearchFloat64s(q, v)                                       // first q >= v
 	hi := lo + sort.Search(n-lo, func(i int) bool { return q[lo+i] > v }) // first q > v
 	switch {
 	case hi > lo: // v equals q_lo..q_hi-1
 		if hi-lo == 1 {
-			return normZ(taus[lo]), 0, nil
+			return normZ(taus[lo]), nil
 		}
-		return (normZ(taus[lo]) + normZ(taus[hi-1])) / 2, 0, nil
-	case lo == 0: // below the lowest curve: extend its lowest distinct band
-		k := sort.Search(n, func(i int) bool { return q[i] > q[0] })
-		z0, zk := normZ(taus[0]), normZ(taus[k])
-		return z0 + (v-q[0])*((zk-z0)/(q[k]-q[0])), FlagBeyondTail, nil
-	case lo == n: // above the highest curve
-		k := sort.SearchFloat64s(q, q[n-1]) - 1 // last q < q[n-1]
-		zk, z1 := normZ(taus[k]), normZ(taus[n-1])
-		return z1 + (v-q[n-1])*((z1-zk)/(q[n-1]-q[k])), FlagBeyondTail, nil
+		return (normZ(taus[lo]) + normZ(taus[hi-1])) / 2, nil
+	case lo == 0 || lo == n:
+		panic(fmt.Sprintf("curve: place: %g outside the body [%g, %g]", v, q[0], q[n-1]))
 	default: // q[lo-1] < v < q[lo]
 		z0, z1 := normZ(taus[lo-1]), normZ(taus[lo])
 		u := (v - q[lo-1]) / (q[lo] - q[lo-1])
 		// u is monotone in v, so z is; the clamp keeps rounding from
 		// lifting z above z1, the score of the value q[lo] itself.
-		return min(z0+u*(z1-z0), z1), 0, nil
+		return min(z0+u*(z1-z0), z1), nil
 	}
 }
 

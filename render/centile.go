@@ -28,6 +28,10 @@ type Centiles struct {
 
 	// Children are highlighted trajectories drawn over the curves.
 	Children []Child
+	// Overlay, when not nil, is a second set of curves (another reference,
+	// or a cohort's own fitted centiles) drawn as dark dashed lines over the
+	// bands, on the same measurement scale.
+	Overlay *Overlay
 
 	// Caution is printed in small type at the bottom of the chart.
 	Caution string
@@ -39,6 +43,19 @@ type Curve struct {
 	Ages    []float64
 	Values  []float64
 	Band    *Band // optional bootstrap interval
+	// Label replaces the centile number at the curve's end, for example
+	// "+2 SD".
+	Label string
+	// Dashed draws the curve as a dashed line outside the shaded bands, as
+	// for the curves at whole SD.
+	Dashed bool
+}
+
+// Overlay is a second set of curves on a centile chart, named in the
+// legend by Label.
+type Overlay struct {
+	Label  string
+	Curves []Curve
 }
 
 // Band is a pointwise interval about a curve, for example a bootstrap 95%
@@ -65,6 +82,19 @@ type Child struct {
 
 // medianCentile is the centile drawn emphasised.
 const medianCentile = 50
+
+// maxCloudPoints is the most measurements drawn as the light cloud. Larger
+// clouds are thinned to every k-th row, and the legend says so; beyond a
+// few thousand points a cloud at chart size is a solid smear, and the SVG
+// of a registry's rows would run to hundreds of megabytes (our choice).
+const maxCloudPoints = 5000
+
+// sdDashes and overlayDashes are the dash patterns of the whole-SD curves
+// and of overlaid curves.
+var (
+	sdDashes      = []vg.Length{2, 2}
+	overlayDashes = []vg.Length{5, 2.5}
+)
 
 // pairTol is how far from 100 the sum of two centiles may be and still pair
 // them as a band (centiles are given as decimals such as 2.5 and 97.5).
@@ -104,13 +134,21 @@ func CentileChart(c *Centiles, opt ...Option) (*Figure, error) {
 
 	p := newPlot(base)
 	p.X.Label.Text = withUnit("Age", c.AgeUnit)
+	p.X.Tick.Marker = ageTicks{unit: c.AgeUnit}
 	p.Y.Label.Text = withUnit(capitalize(measureName(c.Measure)), c.Unit)
 
-	// Nested bands, outermost first, so inner ones paint over.
-	pairs := bandPairs(curves)
+	// Nested bands, outermost first, so inner ones paint over. Dashed
+	// curves (whole SD) lie outside the banding.
+	var banded []Curve
+	for _, cv := range curves {
+		if !cv.Dashed {
+			banded = append(banded, cv)
+		}
+	}
+	pairs := bandPairs(banded)
 	fills := Palette(hue, len(pairs))
 	for k, pr := range pairs {
-		lo, hi := curves[pr[0]], curves[pr[1]]
+		lo, hi := banded[pr[0]], banded[pr[1]]
 		poly := ribbon(lo.Ages, lo.Values, hi.Ages, hi.Values)
 		poly.Color = fills[k]
 		poly.LineStyle.Width = 0
@@ -120,12 +158,23 @@ func CentileChart(c *Centiles, opt ...Option) (*Figure, error) {
 	addGrid(p, s)
 
 	if c.Data != nil && len(c.Data.Ages) > 0 {
-		sc, err := plotter.NewScatter(xys(c.Data.Ages, c.Data.Values))
+		n := len(c.Data.Ages)
+		step := (n + maxCloudPoints - 1) / maxCloudPoints
+		var cloud plotter.XYs
+		for i := 0; i < n; i += step {
+			cloud = append(cloud, plotter.XY{X: c.Data.Ages[i], Y: c.Data.Values[i]})
+		}
+		sc, err := plotter.NewScatter(cloud)
 		if err != nil {
 			return nil, fmt.Errorf("data: %w", err)
 		}
 		sc.GlyphStyle = draw.GlyphStyle{Color: scatterColor, Radius: vg.Points(0.9), Shape: draw.CircleGlyph{}}
 		p.Add(sc)
+		label := fmt.Sprintf("measurements (n = %d)", n)
+		if step > 1 {
+			label = fmt.Sprintf("measurements: every %s of %d drawn", ordinal(step), n)
+		}
+		p.Legend.Add(label, sc)
 	}
 
 	haveBand := false
@@ -163,15 +212,36 @@ func CentileChart(c *Centiles, opt ...Option) (*Figure, error) {
 		}
 		col := shade(hue, lineLight)
 		ln.LineStyle = draw.LineStyle{Color: col, Width: centileWidth}
-		if cv.Centile == medianCentile {
+		switch {
+		case cv.Dashed:
+			ln.LineStyle.Dashes = sdDashes
+		case cv.Centile == medianCentile:
 			col = shade(hue, medianLight)
 			ln.LineStyle = draw.LineStyle{Color: col, Width: medianWidth}
 		}
 		p.Add(ln)
 		last := len(cv.Ages) - 1
+		text := cv.Label
+		if text == "" {
+			text = centileText(cv.Centile)
+		}
 		labels.labels = append(labels.labels, endLabel{
-			x: cv.Ages[last], y: cv.Values[last], text: centileText(cv.Centile), color: col,
+			x: cv.Ages[last], y: cv.Values[last], text: text, color: col,
 		})
+	}
+	if o := c.Overlay; o != nil {
+		style := draw.LineStyle{Color: accentColors[1], Width: childWidth, Dashes: overlayDashes}
+		for k, cv := range o.Curves {
+			ln, err := plotter.NewLine(xys(cv.Ages, cv.Values))
+			if err != nil {
+				return nil, fmt.Errorf("overlay centile %s: %w", centileText(cv.Centile), err)
+			}
+			ln.LineStyle = style
+			p.Add(ln)
+			if k == 0 && o.Label != "" {
+				p.Legend.Add(o.Label, ln)
+			}
+		}
 	}
 
 	labels.noteStyle = textStyle(base*smallScale*0.9, inkColor)
@@ -249,6 +319,17 @@ func (c *Centiles) check() error {
 	if c.Data != nil {
 		if err := checkPairs("data ages", c.Data.Ages, "data values", c.Data.Values); err != nil {
 			return err
+		}
+	}
+	if c.Overlay != nil {
+		for _, cv := range c.Overlay.Curves {
+			name := "overlay centile " + centileText(cv.Centile)
+			if len(cv.Ages) == 0 {
+				return fmt.Errorf("%s: no points: %w", name, ErrEmpty)
+			}
+			if err := checkPairs("ages", cv.Ages, "values", cv.Values); err != nil {
+				return fmt.Errorf("%s: %w", name, err)
+			}
 		}
 	}
 	for i, ch := range c.Children {

@@ -86,6 +86,7 @@ func DiffChart(d *Diff, opt ...Option) (*Figure, error) {
 
 	p := newPlot(base)
 	p.X.Label.Text = withUnit("Age", d.AgeUnit)
+	p.X.Tick.Marker = ageTicks{unit: d.AgeUnit}
 	p.Y.Label.Text = d.YLabel
 	if p.Y.Label.Text == "" {
 		p.Y.Label.Text = "Difference (z units)"
@@ -149,14 +150,15 @@ func DiffChart(d *Diff, opt ...Option) (*Figure, error) {
 
 	title := s.title
 	if title == "" {
-		ab := "Difference between references"
+		// File names are shown as they are, never capitalised.
+		t := capitalize(measureName(d.Measure)) + ": difference between references"
 		switch {
 		case d.A != "" && d.B != "":
-			ab = d.B + " against " + d.A
+			t = capitalize(measureName(d.Measure)) + " centiles of " + d.B + " in z-scores of " + d.A
 		case d.B != "":
-			ab = d.B + " against the reference"
+			t = capitalize(measureName(d.Measure)) + " centiles of " + d.B + " in z-scores of the reference"
 		}
-		title = joinTitle(capitalize(ab)+": "+measureName(d.Measure), d.Stratum)
+		title = joinTitle(t, d.Stratum)
 	}
 	return &Figure{Title: title, Panels: [][]*plot.Plot{{p}}, Caution: d.Caution, fontSize: base}, nil
 }

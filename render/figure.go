@@ -2,6 +2,7 @@ package render
 
 import (
 	"image/color"
+	"math"
 	"strings"
 
 	"gonum.org/v1/plot"
@@ -36,8 +37,12 @@ type Figure struct {
 	Title   string
 	Panels  [][]*plot.Plot // row-major; a nil entry leaves its tile empty
 	Caution string
+	// XLabel and YLabel, when not empty, are written once below and left
+	// of a grid of panels, for axes the panels share.
+	XLabel, YLabel string
 
 	fontSize vg.Length // base font size; 0 means DefaultFontSize
+	height   vg.Length // preferred height when the caller gives none; 0 means DefaultHeight
 }
 
 // Draw draws the figure on c.
@@ -72,6 +77,21 @@ func (f *Figure) Draw(c draw.Canvas) {
 		c.Min.Y = y + gap
 	}
 
+	if f.XLabel != "" {
+		sty := textStyle(base, inkColor)
+		sty.XAlign = draw.XCenter
+		sty.YAlign = draw.YBottom
+		c.FillText(sty, vg.Point{X: c.Center().X, Y: c.Min.Y}, f.XLabel)
+		c.Min.Y += sty.Height(f.XLabel) + gap/2
+	}
+	if f.YLabel != "" {
+		sty := textStyle(base, inkColor)
+		sty.Rotation = math.Pi / 2
+		sty.XAlign = draw.XCenter
+		sty.YAlign = draw.YTop
+		c.FillText(sty, vg.Point{X: c.Min.X, Y: c.Center().Y}, f.YLabel)
+		c.Min.X += sty.FontExtents().Height + gap/2
+	}
 	rows := len(f.Panels)
 	cols := 0
 	for _, r := range f.Panels {

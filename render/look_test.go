@@ -91,7 +91,7 @@ func sampleWorm() *Worm {
 	labels := []string{"0–3 months", "3–6 months", "6–12 months", "12–24 months", "24–36 months", "36–60 months"}
 	for i, lab := range labels {
 		n := 60 + 40*i
-		g := WormGroup{Label: lab}
+		var zs []float64
 		for range n {
 			z := r.NormFloat64()
 			switch i {
@@ -100,8 +100,10 @@ func sampleWorm() *Worm {
 			case 4:
 				z += 0.15 * (z*z - 1) // skewed
 			}
-			g.Z = append(g.Z, z)
+			zs = append(zs, z)
 		}
+		g := detrend(zs)
+		g.Label = lab
 		w.Groups = append(w.Groups, g)
 	}
 	return w

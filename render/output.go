@@ -28,11 +28,15 @@ var formats = []string{"svg", "png", "pdf"}
 // Formats returns the output formats Write accepts: svg, png and pdf.
 func Formats() []string { return append([]string(nil), formats...) }
 
-// Write draws d at the given size (0 means DefaultWidth or DefaultHeight)
+// Write draws d at the given size (0 means DefaultWidth, or DefaultHeight
+// unless the figure asks for more room, as a worm plot of many groups does)
 // and writes it to w in format "svg", "png" or "pdf" (case-insensitive, a
 // leading dot allowed). It returns an error wrapping ErrFormat for any other
 // format and ErrSize for a negative or non-finite size.
 func Write(w io.Writer, d Drawer, format string, width, height vg.Length) error {
+	if f, ok := d.(*Figure); ok && height == 0 && f.height > 0 {
+		height = f.height
+	}
 	c, err := newCanvas(format, width, height)
 	if err != nil {
 		return err

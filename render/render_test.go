@@ -140,9 +140,9 @@ func TestOtherChartsSVGText(t *testing.T) {
 		chart string
 		want  []string
 	}{
-		{"worm", []string{"Worm plot of weight z-scores — girls", "Unit normal quantile", "Deviation"}},
+		{"worm", []string{"Worm plot of weight z-scores — girls", "Expected normal score", "Observed minus expected z"}},
 		{"zdist", []string{"Weight z-scores in clinic sample — girls", "z-score", "Density", "n = 500", "standard normal density"}},
-		{"diff", []string{"Reference B against reference A: weight — girls", "Age (months)", "Difference (z units)", "3", "50", "97"}},
+		{"diff", []string{"Weight centiles of reference B in z-scores of reference A — girls", "Age (months)", "Difference (z units)", "3", "50", "97"}},
 	}
 	for _, tc := range cases {
 		texts := svgTexts(render(t, fs[tc.chart], "svg"))
@@ -159,7 +159,7 @@ func TestOtherChartsSVGText(t *testing.T) {
 	for _, g := range sampleWorm().Groups {
 		found := false
 		for _, s := range texts {
-			found = found || strings.HasPrefix(s, g.Label+"  (n = "+fmt.Sprint(len(g.Z)))
+			found = found || strings.HasPrefix(s, g.Label+": n = "+fmt.Sprint(len(g.Expected)))
 		}
 		if !found {
 			t.Errorf("worm: no panel title for %q", g.Label)
@@ -401,10 +401,10 @@ func TestBadInput(t *testing.T) {
 	if _, err := WormChart(&Worm{}); !errors.Is(err, ErrEmpty) {
 		t.Errorf("worm empty: %v", err)
 	}
-	if _, err := WormChart(&Worm{Groups: []WormGroup{{Z: []float64{1, 2}}}}); !errors.Is(err, ErrTooFew) {
+	if _, err := WormChart(&Worm{Groups: []WormGroup{detrend([]float64{1, 2})}}); !errors.Is(err, ErrTooFew) {
 		t.Errorf("worm too few: %v", err)
 	}
-	if _, err := WormChart(&Worm{Groups: []WormGroup{{Z: []float64{1, nan, 2}}}}); !errors.Is(err, ErrNaN) {
+	if _, err := WormChart(&Worm{Groups: []WormGroup{{Expected: []float64{-1, 0, 1}, Deviation: []float64{1, nan, 2}}}}); !errors.Is(err, ErrNaN) {
 		t.Errorf("worm NaN: %v", err)
 	}
 	if _, err := ZDistChart(nil); !errors.Is(err, ErrEmpty) {

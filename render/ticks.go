@@ -3,6 +3,7 @@ package render
 import (
 	"math"
 	"strconv"
+	"strings"
 
 	"gonum.org/v1/plot"
 )
@@ -68,4 +69,62 @@ func tickLabel(v, step float64) string {
 		dec++
 	}
 	return strconv.FormatFloat(v, 'f', dec, 64)
+}
+
+// ageSteps are the major tick steps, with their minor steps, that growth
+// charts use in each age unit (common practice: months in quarters, halves
+// and whole years, years whole). The ticker takes the first step that
+// divides the range into at most ageMaxIntervals parts.
+var ageSteps = map[string][][2]float64{
+	"months": {{1, 0}, {3, 1}, {6, 3}, {12, 6}, {24, 12}, {60, 12}, {120, 60}},
+	"years":  {{1, 0.5}, {2, 1}, {5, 1}, {10, 5}, {20, 10}},
+	"weeks":  {{1, 0}, {2, 1}, {4, 2}, {13, 0}, {26, 13}, {52, 26}, {104, 52}},
+	"days":   {{1, 0}, {7, 1}, {14, 7}, {28, 7}, {91, 0}, {182, 91}, {365, 0}},
+}
+
+// ageMaxIntervals is the most major intervals the age ticker allows: 0–60
+// months (with room for curve labels) still ticks every 6.
+const ageMaxIntervals = 11
+
+// ageTicks ticks an age axis at the steps of its unit (ageSteps); an
+// unknown unit, or a range too long for the steps, falls back to niceTicks.
+type ageTicks struct {
+	unit string
+}
+
+// ageUnitKey maps "months", "month", "Months" to the key of ageSteps.
+func ageUnitKey(unit string) string {
+	u := strings.ToLower(strings.TrimSpace(unit))
+	if !strings.HasSuffix(u, "s") {
+		u += "s"
+	}
+	return u
+}
+
+func (t ageTicks) Ticks(lo, hi float64) []plot.Tick {
+	if !(hi > lo) || math.IsInf(lo, 0) || math.IsInf(hi, 0) {
+		return nil
+	}
+	for _, st := range ageSteps[ageUnitKey(t.unit)] {
+		step, minor := st[0], st[1]
+		if (hi-lo)/step > ageMaxIntervals {
+			continue
+		}
+		var out []plot.Tick
+		for k := math.Ceil(lo/step - 1e-9); k*step <= hi+step*1e-9; k++ {
+			v := k*step + 0 // + 0 turns -0 into 0
+			out = append(out, plot.Tick{Value: v, Label: strconv.FormatFloat(v, 'f', -1, 64)})
+		}
+		if minor > 0 {
+			for k := math.Ceil(lo/minor - 1e-9); k*minor <= hi+minor*1e-9; k++ {
+				if v := k * minor; math.Abs(math.Remainder(v, step)) > step*1e-9 {
+					out = append(out, plot.Tick{Value: v})
+				}
+			}
+		}
+		if len(out) >= 2 {
+			return out
+		}
+	}
+	return niceTicks{target: xTickTarget}.Ticks(lo, hi)
 }

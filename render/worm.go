@@ -3,7 +3,6 @@ package render
 import (
 	"fmt"
 	"math"
-	"sort"
 
 	"gonum.org/v1/gonum/stat/distuv"
 	"gonum.org/v1/plot"
@@ -12,18 +11,21 @@ import (
 	"gonum.org/v1/plot/vg/draw"
 )
 
-// Worm is the input of the worm plot: z-scores of one measure split into age
-// groups, one panel per group.
+// Worm is the input of the worm plot: per age group, the detrended normal
+// Q–Q points of one measure's z-scores, as curve.Check computes them (the
+// one worm computation of growband; this package only draws them).
 type Worm struct {
 	Measure, Stratum string
 	Groups           []WormGroup
 	Caution          string
 }
 
-// WormGroup is one age group's z-scores, in any order.
+// WormGroup is one age group's worm: for each of its z-scores in increasing
+// order, the expected normal score and the observed z minus it.
 type WormGroup struct {
-	Label string // for example "0–6 months"
-	Z     []float64
+	Label     string // for example "0–6 months"
+	Expected  []float64
+	Deviation []float64
 }
 
 // Worm plot constants.
@@ -36,24 +38,16 @@ const (
 	// so a well-fitting group is not blown up to fill its panel.
 	wormMinX = 2.5
 	wormMinY = 0.6
+	// wormMaxPoints is the most points drawn in one panel. Larger groups are
+	// thinned to evenly spaced ranks (every k-th point, always the first and
+	// last), which keeps the worm's shape and the file small at any n; the
+	// rule is written on the panel. 400 points is more than a panel a few
+	// centimetres wide can separate (our choice).
+	wormMaxPoints = 400
+	// wormMaxColumns is the most panel columns: panels are wide and short,
+	// in age order down each column, so a worm reads across its width.
+	wormMaxColumns = 2
 )
-
-// wormPoints returns the detrended normal Q–Q points of z: the unit normal
-// quantiles q of the Blom plotting positions and the deviations
-// d = z₍ᵢ₎ − q of the sorted z. It does not change z.
-func wormPoints(z []float64) (q, d []float64) {
-	n := len(z)
-	s := append([]float64(nil), z...)
-	sort.Float64s(s)
-	q = make([]float64, n)
-	d = make([]float64, n)
-	for i := range s {
-		p := (float64(i+1) - 3.0/8) / (float64(n) + 1.0/4)
-		q[i] = distuv.UnitNormal.Quantile(p)
-		d[i] = s[i] - q[i]
-	}
-	return q, d
-}
 
 // wormEnvelope returns the half-width at unit normal quantile q of the
 // approximate pointwise 95% band of a worm plot of n points,
@@ -63,11 +57,23 @@ func wormEnvelope(q float64, n int) float64 {
 	return wormZ95 * math.Sqrt(p*(1-p)/float64(n)) / distuv.UnitNormal.Prob(q)
 }
 
+// thinStep returns the rank step k that keeps at most wormMaxPoints of n
+// points (1 when all fit).
+func thinStep(n int) int {
+	if n <= wormMaxPoints {
+		return 1
+	}
+	return (n + wormMaxPoints - 2) / (wormMaxPoints - 1)
+}
+
 // WormChart returns the worm plot of w: per age group, the detrended Q–Q
-// points of its z-scores within the approximate 95% envelope, all panels on
-// common axes. It returns an error wrapping ErrEmpty when there are no
-// groups, ErrTooFew for a group of fewer than 3 values and ErrNaN for NaN
-// or infinite z.
+// points of its z-scores on a shaded approximate 95% band, all panels on
+// common axes, in age order down the columns. The panel title gives the
+// group's n and how many points lie outside the band (counted on all
+// points, also when the drawing is thinned). It returns an error wrapping
+// ErrEmpty when there are no groups, ErrTooFew for a group of fewer than 3
+// points, ErrLength for unequal lengths and ErrNaN for NaN or infinite
+// values.
 //
 // References:
 //   - van Buuren S, Fredriks M (2001). Worm plot: a simple diagnostic device
@@ -79,10 +85,10 @@ func WormChart(w *Worm, opt ...Option) (*Figure, error) {
 	}
 	for i, g := range w.Groups {
 		name := groupName(i, g.Label)
-		if len(g.Z) < minWormN {
-			return nil, fmt.Errorf("worm plot %s: %d values, need %d: %w", name, len(g.Z), minWormN, ErrTooFew)
+		if len(g.Expected) < minWormN {
+			return nil, fmt.Errorf("worm plot %s: %d values, need %d: %w", name, len(g.Expected), minWormN, ErrTooFew)
 		}
-		if err := checkFinite("z", g.Z); err != nil {
+		if err := checkPairs("expected", g.Expected, "deviation", g.Deviation); err != nil {
 			return nil, fmt.Errorf("worm plot %s: %w", name, err)
 		}
 	}
@@ -90,15 +96,11 @@ func WormChart(w *Worm, opt ...Option) (*Figure, error) {
 	base := s.base()
 	hue := s.hueDeg()
 
-	type panel struct{ q, d []float64 }
-	panels := make([]panel, len(w.Groups))
 	xlim, ylim := wormMinX, wormMinY
-	for i, g := range w.Groups {
-		q, d := wormPoints(g.Z)
-		panels[i] = panel{q, d}
-		for j := range q {
-			xlim = math.Max(xlim, 1.05*math.Abs(q[j]))
-			ylim = math.Max(ylim, 1.15*math.Abs(d[j]))
+	for _, g := range w.Groups {
+		for j := range g.Expected {
+			xlim = math.Max(xlim, 1.05*math.Abs(g.Expected[j]))
+			ylim = math.Max(ylim, 1.15*math.Abs(g.Deviation[j]))
 		}
 	}
 	xlim = math.Ceil(xlim*2) / 2
@@ -106,7 +108,10 @@ func WormChart(w *Worm, opt ...Option) (*Figure, error) {
 
 	cols := s.columns
 	if cols == 0 {
-		cols = int(math.Ceil(math.Sqrt(float64(len(w.Groups)))))
+		cols = wormMaxColumns
+		if len(w.Groups) <= 3 {
+			cols = 1
+		}
 	}
 	cols = min(cols, len(w.Groups))
 	rows := (len(w.Groups) + cols - 1) / cols
@@ -115,24 +120,27 @@ func WormChart(w *Worm, opt ...Option) (*Figure, error) {
 		grid[r] = make([]*plot.Plot, cols)
 	}
 
-	fill := Palette(hue, 1)[0]
-	edge := draw.LineStyle{Color: shade(hue, 0.45), Width: 0.8, Dashes: []vg.Length{3, 2}}
+	fill := Palette(hue, 2)[1]
 	scale := base / DefaultFontSize
-	inside := draw.GlyphStyle{Color: shade(hue, medianLight), Radius: 1.6 * scale, Shape: draw.CircleGlyph{}}
-	outside := draw.GlyphStyle{Color: accentColors[0], Radius: 2.0 * scale, Shape: draw.CircleGlyph{}}
+	inside := draw.GlyphStyle{Color: shade(hue, medianLight), Radius: 1.4 * scale, Shape: draw.CircleGlyph{}}
+	outside := draw.GlyphStyle{Color: accentColors[0], Radius: 1.9 * scale, Shape: draw.BoxGlyph{}}
 	for i, g := range w.Groups {
 		p := newPlot(base * panelScale)
-		p.X.Tick.Marker = niceTicks{target: 5}
-		p.Y.Tick.Marker = niceTicks{target: 5}
-		n := len(g.Z)
-		r, c := i/cols, i%cols
+		p.X.Tick.Marker = niceTicks{target: 6}
+		p.Y.Tick.Marker = niceTicks{target: 4}
+		n := len(g.Expected)
+		r, c := i%rows, i/rows // down each column, in age order
 		out := 0
-		for j := range panels[i].q {
-			if math.Abs(panels[i].d[j]) > wormEnvelope(panels[i].q[j], n) {
+		for j := range g.Expected {
+			if math.Abs(g.Deviation[j]) > wormEnvelope(g.Expected[j], n) {
 				out++
 			}
 		}
-		p.Title.Text = fmt.Sprintf("%s  (n = %d, %d outside)", groupName(i, g.Label), n, out)
+		step := thinStep(n)
+		p.Title.Text = fmt.Sprintf("%s: n = %d, %d outside the band", groupName(i, g.Label), n, out)
+		if step > 1 {
+			p.Title.Text += fmt.Sprintf("; every %s point drawn", ordinal(step))
+		}
 
 		var upper, lower plotter.XYs
 		for k := 0; k <= wormEnvelopeSteps; k++ {
@@ -146,25 +154,23 @@ func WormChart(w *Worm, opt ...Option) (*Figure, error) {
 		poly.LineStyle.Width = 0
 		p.Add(poly)
 		addGrid(p, s)
-		for _, e := range []plotter.XYs{upper, lower} {
-			ln, err := plotter.NewLine(e)
-			if err != nil {
-				return nil, err
-			}
-			ln.LineStyle = edge
-			p.Add(ln)
-		}
 		zero, err := plotter.NewLine(plotter.XYs{{X: -xlim, Y: 0}, {X: xlim, Y: 0}})
 		if err != nil {
 			return nil, err
 		}
 		zero.LineStyle = draw.LineStyle{Color: inkColor, Width: 0.5}
 		p.Add(zero)
-		pts, err := plotter.NewScatter(xys(panels[i].q, panels[i].d))
+		var q, d []float64
+		for j := 0; j < n; j += step {
+			q, d = append(q, g.Expected[j]), append(d, g.Deviation[j])
+		}
+		if (n-1)%step != 0 {
+			q, d = append(q, g.Expected[n-1]), append(d, g.Deviation[n-1])
+		}
+		pts, err := plotter.NewScatter(xys(q, d))
 		if err != nil {
 			return nil, err
 		}
-		q, d := panels[i].q, panels[i].d
 		pts.GlyphStyleFunc = func(j int) draw.GlyphStyle {
 			if math.Abs(d[j]) > wormEnvelope(q[j], n) {
 				return outside
@@ -175,12 +181,6 @@ func WormChart(w *Worm, opt ...Option) (*Figure, error) {
 
 		p.X.Min, p.X.Max = -xlim, xlim
 		p.Y.Min, p.Y.Max = -ylim, ylim
-		if r == rows-1 { // bottom row only, so all rows are spaced alike
-			p.X.Label.Text = "Unit normal quantile"
-		}
-		if c == 0 {
-			p.Y.Label.Text = "Deviation"
-		}
 		grid[r][c] = p
 	}
 
@@ -188,7 +188,30 @@ func WormChart(w *Worm, opt ...Option) (*Figure, error) {
 	if title == "" {
 		title = joinTitle("Worm plot of "+measureName(w.Measure)+" z-scores", w.Stratum)
 	}
-	return &Figure{Title: title, Panels: grid, Caution: w.Caution, fontSize: base}, nil
+	// The axes are labelled once for the grid: the panels are short.
+	return &Figure{Title: title, Panels: grid, Caution: w.Caution, fontSize: base,
+		XLabel: "Expected normal score", YLabel: "Observed minus expected z",
+		height: max(DefaultHeight, vg.Length(rows)*wormRowHeight+4*vg.Centimeter)}, nil
+}
+
+// wormRowHeight is the least height of a row of worm panels at the default
+// size: room for a panel title, a band and the tick labels.
+const wormRowHeight = 3.6 * vg.Centimeter
+
+// ordinal writes 2 as "2nd", 11 as "11th", 23 as "23rd".
+func ordinal(k int) string {
+	suffix := "th"
+	if k%100 < 11 || k%100 > 13 {
+		switch k % 10 {
+		case 1:
+			suffix = "st"
+		case 2:
+			suffix = "nd"
+		case 3:
+			suffix = "rd"
+		}
+	}
+	return fmt.Sprintf("%d%s", k, suffix)
 }
 
 func groupName(i int, label string) string {

@@ -21,7 +21,20 @@ type ZDist struct {
 	Measure, Stratum string
 	Cohort           string // names the cohort, for example "clinic 2024"
 	Z                []float64
-	Caution          string
+	// Weights, when not nil, are survey weights of the z-scores: the
+	// histogram, mean and SD are then weighted, and the chart says so.
+	Weights []float64
+	// Vs, when not nil, is a second cohort drawn over the first as an
+	// outlined histogram on the same bins.
+	Vs      *ZSample
+	Caution string
+}
+
+// ZSample is a second cohort's z-scores and optional survey weights.
+type ZSample struct {
+	Cohort  string
+	Z       []float64
+	Weights []float64
 }
 
 // Histogram constants.
@@ -65,61 +78,76 @@ func binWidthFD(sorted []float64) float64 {
 
 // densityBins returns histogram bins of the given width aligned to
 // multiples of it, holding the density count/(n·width) so the bars' area
-// is one. Values on a boundary go to the bin above. When more than maxBins
+// is one (with weights w, not nil, the weighted count over the summed
+// weight). Values on a boundary go to the bin above. When more than maxBins
 // bins would be needed the width doubles until they fit; the width used is
-// returned.
-func densityBins(sorted []float64, width float64) ([]plotter.HistogramBin, float64) {
+// returned. lo and hi, when finite, widen the bins' range to cover them.
+func densityBins(sorted, w []float64, width, lo0, hi0 float64) ([]plotter.HistogramBin, float64) {
 	n := len(sorted)
-	lo := math.Floor(sorted[0] / width)
-	hi := math.Floor(sorted[n-1]/width) + 1
+	first, last := math.Min(sorted[0], lo0), math.Max(sorted[n-1], hi0)
+	lo := math.Floor(first / width)
+	hi := math.Floor(last/width) + 1
 	for hi-lo > maxBins {
 		width *= 2
-		lo = math.Floor(sorted[0] / width)
-		hi = math.Floor(sorted[n-1]/width) + 1
+		lo = math.Floor(first / width)
+		hi = math.Floor(last/width) + 1
 	}
 	bins := make([]plotter.HistogramBin, int(hi-lo))
 	for k := range bins {
 		bins[k].Min = (lo + float64(k)) * width
 		bins[k].Max = (lo + float64(k) + 1) * width
 	}
-	for _, v := range sorted {
+	total := 0.0
+	for i, v := range sorted {
 		k := int(math.Floor(v/width) - lo)
 		k = max(0, min(k, len(bins)-1))
-		bins[k].Weight++
+		wi := 1.0
+		if w != nil {
+			wi = w[i]
+		}
+		bins[k].Weight += wi
+		total += wi
 	}
 	for k := range bins {
-		bins[k].Weight /= float64(n) * width
+		bins[k].Weight /= total * width
 	}
 	return bins, width
 }
 
 // ZDistChart returns the histogram of z.Z on the density scale with the
 // standard normal density over it and the count, mean and standard
-// deviation written in a corner. It returns an error wrapping ErrTooFew for
-// fewer than two values and ErrNaN for NaN or infinite ones.
+// deviation written in a corner; with z.Weights these are survey-weighted
+// and the chart says so. A second cohort z.Vs is drawn as an outlined
+// histogram on the same bins with its own mean line. It returns an error
+// wrapping ErrTooFew for fewer than two values, ErrNaN for NaN or infinite
+// ones and ErrLength when weights and values differ in number.
 func ZDistChart(z *ZDist, opt ...Option) (*Figure, error) {
 	if z == nil || len(z.Z) == 0 {
 		return nil, fmt.Errorf("z distribution: no values: %w", ErrEmpty)
 	}
-	if len(z.Z) < minZDistN {
-		return nil, fmt.Errorf("z distribution: %d value, need %d: %w", len(z.Z), minZDistN, ErrTooFew)
+	a, err := newZSample("z distribution", z.Z, z.Weights)
+	if err != nil {
+		return nil, err
 	}
-	if err := checkFinite("z", z.Z); err != nil {
-		return nil, fmt.Errorf("z distribution: %w", err)
+	var b *zSample
+	if z.Vs != nil {
+		if b, err = newZSample("z distribution of "+z.Vs.Cohort, z.Vs.Z, z.Vs.Weights); err != nil {
+			return nil, err
+		}
 	}
 	s := newSettings(opt)
 	base := s.base()
 	hue := s.hueDeg()
 
-	sorted := append([]float64(nil), z.Z...)
-	sort.Float64s(sorted)
 	width := s.binWidth
 	if width == 0 {
-		width = binWidthFD(sorted)
+		width = binWidthFD(a.z)
 	}
-	mean, sd := stat.MeanStdDev(sorted, nil)
-
-	bins, width := densityBins(sorted, width)
+	lo, hi := math.Inf(1), math.Inf(-1)
+	if b != nil {
+		lo, hi = b.z[0], b.z[len(b.z)-1]
+	}
+	bins, width := densityBins(a.z, a.w, width, lo, hi)
 
 	p := newPlot(base)
 	p.X.Label.Text = "z-score"
@@ -132,10 +160,30 @@ func ZDistChart(z *ZDist, opt ...Option) (*Figure, error) {
 	}
 	p.Add(hist)
 	addGrid(p, s)
-	p.Legend.Add(fmt.Sprintf("cohort, bins of %g", width), hist)
+	name := "cohort"
+	if z.Cohort != "" && b != nil {
+		name = z.Cohort
+	}
+	weighted := ""
+	if a.w != nil {
+		weighted = ", weighted by survey weights"
+	}
+	p.Legend.Add(fmt.Sprintf("%s%s, bins of %g", name, weighted, width), hist)
+	xhi := math.Max(zdistHalfWidth, math.Max(-bins[0].Min, bins[len(bins)-1].Max))
+	var bbins []plotter.HistogramBin
+	if b != nil {
+		bbins, _ = densityBins(b.z, b.w, width, a.z[0], a.z[len(a.z)-1])
+		outline := &plotter.Histogram{Bins: bbins, Width: width,
+			LineStyle: draw.LineStyle{Color: accentColors[1], Width: 1.2}}
+		p.Add(outline)
+		vw := ""
+		if b.w != nil {
+			vw = ", weighted by survey weights"
+		}
+		p.Legend.Add(z.Vs.Cohort+vw, outline)
+	}
 
 	// A symmetric axis keeps z = 0 in the middle.
-	xhi := math.Max(zdistHalfWidth, math.Max(-bins[0].Min, bins[len(bins)-1].Max))
 	xlo := -xhi
 	var curve plotter.XYs
 	for k := 0; k <= normalSteps; k++ {
@@ -150,23 +198,27 @@ func ZDistChart(z *ZDist, opt ...Option) (*Figure, error) {
 	p.Add(ln)
 	p.Legend.Add("standard normal density", ln)
 
-	meanLine, err := plotter.NewLine(plotter.XYs{{X: mean, Y: 0}, {X: mean, Y: distuv.UnitNormal.Prob(0)}})
-	if err != nil {
-		return nil, err
+	notes := a.notes("")
+	for k, smp := range []*zSample{a, b} {
+		if smp == nil {
+			continue
+		}
+		ml, err := plotter.NewLine(plotter.XYs{{X: smp.mean, Y: 0}, {X: smp.mean, Y: distuv.UnitNormal.Prob(0)}})
+		if err != nil {
+			return nil, err
+		}
+		ml.LineStyle = draw.LineStyle{Color: accentColors[k], Width: 1, Dashes: []vg.Length{4, 2}}
+		p.Add(ml)
+		label := "cohort mean"
+		if b != nil {
+			label = "mean of " + []string{z.Cohort, z.Vs.Cohort}[k]
+		}
+		p.Legend.Add(label, ml)
 	}
-	meanLine.LineStyle = draw.LineStyle{Color: accentColors[0], Width: 1, Dashes: []vg.Length{4, 2}}
-	p.Add(meanLine)
-	p.Legend.Add("cohort mean", meanLine)
-
-	p.Add(&cornerNote{
-		lines: []string{
-			fmt.Sprintf("n = %d", len(sorted)),
-			fmt.Sprintf("mean = %.2f", mean),
-			fmt.Sprintf("SD = %.2f", sd),
-		},
-		style: textStyle(base*smallScale, inkColor),
-		inset: base * 0.6,
-	})
+	if b != nil {
+		notes = append(a.notes(z.Cohort+": "), b.notes(z.Vs.Cohort+": ")...)
+	}
+	p.Add(&cornerNote{lines: notes, style: textStyle(base*smallScale, inkColor), inset: base * 0.6})
 	p.X.Min, p.X.Max = xlo, xhi
 	p.Y.Min = 0
 	p.Y.Max *= 1.08
@@ -179,9 +231,64 @@ func ZDistChart(z *ZDist, opt ...Option) (*Figure, error) {
 		if z.Cohort != "" {
 			t += " in " + z.Cohort
 		}
+		if b != nil && z.Vs.Cohort != "" {
+			t += " and " + z.Vs.Cohort
+		}
 		title = joinTitle(t, z.Stratum)
 	}
 	return &Figure{Title: title, Panels: [][]*plot.Plot{{p}}, Caution: z.Caution, fontSize: base}, nil
+}
+
+// zSample is a checked cohort: z sorted, weights (nil: none) in the same
+// order, and the (weighted) mean and SD.
+type zSample struct {
+	z, w     []float64
+	mean, sd float64
+}
+
+func newZSample(what string, z, w []float64) (*zSample, error) {
+	if len(z) < minZDistN {
+		return nil, fmt.Errorf("%s: %d value(s), need %d: %w", what, len(z), minZDistN, ErrTooFew)
+	}
+	if err := checkFinite("z", z); err != nil {
+		return nil, fmt.Errorf("%s: %w", what, err)
+	}
+	out := &zSample{z: append([]float64(nil), z...)}
+	if w != nil {
+		if err := checkPairs("z", z, "weights", w); err != nil {
+			return nil, fmt.Errorf("%s: %w", what, err)
+		}
+		idx := make([]int, len(z))
+		for i := range idx {
+			idx[i] = i
+		}
+		sort.Slice(idx, func(a, b int) bool { return z[idx[a]] < z[idx[b]] })
+		out.w = make([]float64, len(z))
+		for k, i := range idx {
+			out.z[k], out.w[k] = z[i], w[i]
+		}
+	} else {
+		sort.Float64s(out.z)
+	}
+	// Weighted mean and SD with the n/(n-1) correction, as the cohort
+	// comparison estimates them (the ordinary sample SD for no weights).
+	out.mean = stat.Mean(out.z, out.w)
+	n := float64(len(out.z))
+	out.sd = math.Sqrt(stat.MomentAbout(2, out.z, out.mean, out.w) * n / (n - 1))
+	return out, nil
+}
+
+// notes are the corner lines of a sample: n, mean and SD.
+func (s *zSample) notes(prefix string) []string {
+	w := ""
+	if s.w != nil {
+		w = ", weighted mean and SD"
+	}
+	return []string{
+		fmt.Sprintf("%sn = %d%s", prefix, len(s.z), w),
+		fmt.Sprintf("mean = %.2f", s.mean),
+		fmt.Sprintf("SD = %.2f", s.sd),
+	}
 }
 
 // cornerNote writes a few right-aligned lines in the top-right corner of

@@ -124,6 +124,11 @@ func build(plan *intake.Plan, dir string, prog progress) (*built, error) {
 		}
 	}
 	b.ref = ref
+	notes, err := fitConditional(plan, ref, data, prog)
+	if err != nil {
+		return nil, err
+	}
+	b.notes = append(b.notes, notes...)
 	if b.diag, err = curve.Check(ref, data, nil); err != nil {
 		return nil, fmt.Errorf("diagnostics: %w", err)
 	}
@@ -132,6 +137,12 @@ func build(plan *intake.Plan, dir string, prog progress) (*built, error) {
 		return nil, err
 	}
 	if err := b.writeFiles(prog); err != nil {
+		return nil, err
+	}
+	if err := b.fitCovariates(prog); err != nil {
+		return nil, err
+	}
+	if err := b.writeConditionalTable(); err != nil {
 		return nil, err
 	}
 	return b, nil
@@ -337,6 +348,7 @@ func (b *built) writeCentiles(w io.Writer) error {
 	if err != nil {
 		return err
 	}
+	roundTable(b.ref, rows, cols, false)
 	return writeRowsCSV(w, cols, rows, false)
 }
 
@@ -365,7 +377,7 @@ func (b *built) summary(w io.Writer) error {
 	fmt.Fprintln(tw, "stratum\tn\tages\tinterior knots\tlambda\tchosen by\tsize guard")
 	for _, st := range b.ref.Strata {
 		fmt.Fprintf(tw, "%s\t%d\t%s–%s\t%d\t%.4g\t%s\t%s\n", nameOr(st.Name), st.N, shortAge(st.AgeMin), shortAge(st.AgeMax),
-			st.Smoothness.InteriorKnots, st.Smoothness.Lambda, st.Smoothness.Criterion, guardText(&st))
+			st.Smoothness.InteriorKnots, st.Smoothness.Lambda, curve.CriterionText(st.Smoothness.Criterion), guardText(&st))
 	}
 	tw.Flush()
 	for _, n := range b.notes {
@@ -537,31 +549,4 @@ func writeRowsCSV(w io.Writer, centiles []float64, rows []tableRow, velocity boo
 	}
 	cw.Flush()
 	return cw.Error()
-}
-
-// centileFigure draws the centile chart of one stratum with an optional
-// data cloud and children's trajectories.
-func centileFigure(r *curve.Reference, st *curve.Stratum, pts *render.Points, children []render.Child) (*render.Figure, error) {
-	ages := linspace(st.AgeMin, st.AgeMax, chartPoints)
-	tab, err := r.Table(st.Name, ages, st.Chart)
-	if err != nil {
-		return nil, err
-	}
-	c := &render.Centiles{
-		Measure: r.Measure, Unit: r.Unit, AgeUnit: r.AgeUnit, Stratum: st.Name,
-		Data: pts, Children: children, Caution: curve.Caution,
-	}
-	for j, tau := range st.Chart {
-		cv := render.Curve{Centile: tidy(100 * tau), Ages: ages, Values: make([]float64, len(ages))}
-		for i := range ages {
-			cv.Values[i] = tab.Values[i][j]
-		}
-		for _, bd := range st.Bands {
-			if bd.Tau == tau {
-				cv.Band = &render.Band{Ages: bd.Ages, Lo: bd.Lo, Hi: bd.Hi}
-			}
-		}
-		c.Curves = append(c.Curves, cv)
-	}
-	return render.CentileChart(c)
 }

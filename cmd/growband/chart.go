@@ -6,28 +6,35 @@ import (
 	"io"
 	"math"
 	"slices"
+	"strconv"
+	"strings"
 
 	"gonum.org/v1/plot/vg"
 
 	"growband/curve"
 	"growband/internal/intake"
+	"growband/internal/refchart"
 	"growband/internal/scorefile"
 	"growband/render"
 )
 
-const chartUsage = `usage: growband chart --ref FILE [--stratum S] [--points FILE.csv] --out FILE.svg|.png|.pdf
+const chartUsage = `usage: growband chart --ref FILE [--stratum S] [--points FILE.csv] [--ages FROM:TO]
+                      [--sd-curves] --out FILE.svg|.png|.pdf
 
 Draws the reference's centile chart of one stratum (--stratum is needed when
 the reference has several), in the format given by the --out file's
-extension. With --points, children's measurements from a CSV file are drawn
-over the curves: the points of one child (same value in the child column,
-found automatically as "child_id", "child" or "id" unless named) are joined
-in age order; without a child column the points are drawn as a light cloud.
+extension, over the whole fitted age range or the part --ages names. With
+--sd-curves the curves at -3, -2, +2 and +3 SD are drawn dashed as well,
+where the reference's centiles reach them. With --points, children's
+measurements from a CSV file are drawn over the curves: the points of one
+child (same value in the subject column, found automatically as
+"child_id", "child" or "id" unless --subject-column names it) are joined in
+age order; without a subject column the points are drawn as a light cloud.
 The age and value columns are named as for "growband score".
 `
 
-// childColumns are the header names taken as the child id column when
-// --child-column is not given, in order of preference.
+// childColumns are the header names taken as the subject id column when
+// --subject-column is not given, in order of preference.
 var childColumns = []string{"child_id", "child", "id"}
 
 func runChart(args []string, stdout, stderr io.Writer) error {
@@ -39,6 +46,8 @@ func runChart(args []string, stdout, stderr io.Writer) error {
 	title := fs.String("title", "", "chart title (default: measure, age and stratum)")
 	width := fs.Float64("width", 20, "chart width in centimetres")
 	height := fs.Float64("height", 14, "chart height in centimetres")
+	agesFlag := fs.String("ages", "", "draw only this part of the age range, FROM:TO (e.g. 0:24)")
+	sdCurves := fs.Bool("sd-curves", false, "also draw the curves at -3, -2, +2 and +3 SD, dashed")
 	var cols columnFlags
 	cols.register(fs, true)
 	fs.StringVar(&cols.stratumName, "stratum", "", "stratum to draw (needed when the reference has several)")
@@ -59,6 +68,12 @@ func runChart(args []string, stdout, stderr io.Writer) error {
 	if !(*width > 0 && *width < 500 && *height > 0 && *height < 500) {
 		return usagef("chart", "chart: --width and --height must be between 0 and 500 cm")
 	}
+	opt := &refchart.Options{SDCurves: *sdCurves}
+	if *agesFlag != "" {
+		if opt.AgeLo, opt.AgeHi, err = parseAgeRange(*agesFlag); err != nil {
+			return usagef("chart", "chart: --ages: %v", err)
+		}
+	}
 	ref, err := loadReference("chart", *refPath)
 	if err != nil {
 		return err
@@ -74,7 +89,7 @@ func runChart(args []string, stdout, stderr io.Writer) error {
 			return err
 		}
 	}
-	fig, err := centileFigure(ref, st, cloud, children)
+	fig, err := stratumFigure(ref, st, opt, cloud, children, progress{w: stderr})
 	if err != nil {
 		return err
 	}
@@ -86,6 +101,45 @@ func runChart(args []string, stdout, stderr io.Writer) error {
 	}
 	progress{w: stderr}.printf("wrote %s", *out)
 	return nil
+}
+
+// centileFigure draws the whole centile chart of one stratum with an
+// optional data cloud and children's trajectories, as build does.
+func centileFigure(r *curve.Reference, st *curve.Stratum, pts *render.Points, children []render.Child) (*render.Figure, error) {
+	return stratumFigure(r, st, nil, pts, children, progress{})
+}
+
+// stratumFigure draws the centile chart of one stratum built by refchart,
+// with an optional data cloud and children's trajectories; its notes go to
+// prog.
+func stratumFigure(r *curve.Reference, st *curve.Stratum, opt *refchart.Options, pts *render.Points, children []render.Child, prog progress) (*render.Figure, error) {
+	c, notes, err := refchart.Centiles(r, st, opt)
+	if err != nil {
+		return nil, err
+	}
+	for _, n := range notes {
+		prog.printf("%s", n)
+	}
+	c.Data, c.Children = pts, children
+	return render.CentileChart(c)
+}
+
+// parseAgeRange reads FROM:TO.
+func parseAgeRange(s string) (lo, hi float64, err error) {
+	from, to, ok := strings.Cut(s, ":")
+	if !ok {
+		return 0, 0, fmt.Errorf("want FROM:TO, got %q", s)
+	}
+	if lo, err = strconv.ParseFloat(strings.TrimSpace(from), 64); err != nil || math.IsInf(lo, 0) {
+		return 0, 0, fmt.Errorf("%q is not an age", from)
+	}
+	if hi, err = strconv.ParseFloat(strings.TrimSpace(to), 64); err != nil || math.IsInf(hi, 0) {
+		return 0, 0, fmt.Errorf("%q is not an age", to)
+	}
+	if !(hi > lo) {
+		return 0, 0, fmt.Errorf("want FROM < TO, got %q", s)
+	}
+	return lo, hi, nil
 }
 
 // chartStratum picks the stratum to draw.

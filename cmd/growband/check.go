@@ -33,8 +33,8 @@ func runCheck(args []string, stdout, stderr io.Writer) error {
 	refPath := fs.String("ref", "", "reference file written by build (required)")
 	in := fs.String("in", "", "CSV file of measurements to check (required)")
 	out := fs.String("out", "", "directory to write the worm plots into (default: none)")
-	limit := fs.Float64("limit", curve.ImplausibleZ, "leave out rows with |z| above this as implausible, as build does (0 keeps every row)")
-	bands := fs.String("bands", "", "age group edges, e.g. 0,6,12,24,60 (default: equal-count groups)")
+	limit := fs.Float64("limit", curve.ImplausibleZ, limitHelp)
+	bands := fs.String("bands", "", bandsHelp+" (default: equal-count groups)")
 	var cols columnFlags
 	cols.register(fs, false)
 	fs.StringVar(&cols.stratumName, "stratum", "", "treat every row as belonging to this stratum (no stratum column)")
@@ -50,17 +50,12 @@ func runCheck(args []string, stdout, stderr io.Writer) error {
 	}
 	var edges []float64
 	if *bands != "" {
-		if edges, err = parseNumbers(*bands, "--bands"); err != nil {
-			return usagef("check", "check: %v", err)
+		if edges, err = parseBands(*bands); err != nil {
+			return usagef("check", "check: --bands: %v", err)
 		}
-		for i := 1; i < len(edges); i++ {
-			if !(edges[i] > edges[i-1]) {
-				return usagef("check", "check: --bands must increase (%g after %g)", edges[i], edges[i-1])
-			}
-		}
-		if len(edges) < 2 {
-			return usagef("check", "check: --bands needs at least two edges")
-		}
+	}
+	if _, err := limitOption(*limit); err != nil {
+		return usagef("check", "check: %v", err)
 	}
 	ref, err := loadReference("check", *refPath)
 	if err != nil {
@@ -80,9 +75,6 @@ func runCheck(args []string, stdout, stderr io.Writer) error {
 	prog := progress{w: stderr}
 	if len(t.Excluded) > 0 {
 		prog.printf("%s: %d of %d rows not read (%s); see \"growband score\" for each row", t.Name, len(t.Excluded), t.Total, countsText(t.Counts()))
-	}
-	if *limit < 0 {
-		return usagef("check", "check: --limit must be 0 or more")
 	}
 	data := tableData(t)
 	if cols.stratumName != "" {
@@ -223,12 +215,13 @@ func wormFigures(r *curve.Reference, d *curve.Diagnostics) ([]*render.Figure, er
 	for i, st := range r.Strata {
 		wm := &render.Worm{Measure: r.Measure, Stratum: st.Name, Caution: curve.Caution}
 		for _, g := range d.Groups {
-			if g.Stratum != st.Name || len(g.Worm.Z) < 3 {
+			if g.Stratum != st.Name || len(g.Worm.Normal) < 3 {
 				continue
 			}
 			wm.Groups = append(wm.Groups, render.WormGroup{
-				Label: fmt.Sprintf("%.3g–%.3g", g.AgeLo, g.AgeHi),
-				Z:     g.Worm.Z,
+				Label:     fmt.Sprintf("%.3g–%.3g", g.AgeLo, g.AgeHi),
+				Expected:  g.Worm.Normal,
+				Deviation: g.Worm.Deviation,
 			})
 		}
 		if len(wm.Groups) == 0 {

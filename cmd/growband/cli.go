@@ -9,7 +9,6 @@ import (
 	"strings"
 
 	"growband/internal/clinic"
-	"growband/internal/cohort"
 )
 
 const usageTop = `usage: growband <command> [arguments]
@@ -34,16 +33,14 @@ Run "growband <command> -h" for a command's arguments.
 type command func(args []string, stdout, stderr io.Writer) error
 
 var commands = map[string]command{
-	"build": runBuild,
-	"demo":  runDemo,
-	"table": runTable,
-	"score": runScore,
-	"chart": runChart,
-	"check": runCheck,
-	"compare": adapt("compare", func(args []string, stdout, stderr io.Writer) error {
-		return cohort.RunCompare(args, stdout, stderr, registerReadFlags)
-	}),
-	"serve": adapt("serve", clinic.RunServe),
+	"build":   runBuild,
+	"demo":    runDemo,
+	"table":   runTable,
+	"score":   runScore,
+	"chart":   runChart,
+	"check":   runCheck,
+	"compare": runCompare,
+	"serve":   adapt("serve", clinic.RunServe),
 }
 
 // adapt maps the help and usage errors of a subcommand that lives in its own
@@ -51,11 +48,10 @@ var commands = map[string]command{
 func adapt(name string, c command) command {
 	return func(args []string, stdout, stderr io.Writer) error {
 		err := c(args, stdout, stderr)
-		var u *cohort.UsageError
 		switch {
 		case errors.Is(err, flag.ErrHelp):
 			return errHelp
-		case errors.As(err, &u), errors.Is(err, clinic.ErrUsage):
+		case errors.Is(err, clinic.ErrUsage):
 			return usagef(name, "%v", err)
 		}
 		return err

@@ -206,12 +206,14 @@ func selectStrata(r *curve.Reference, name string) ([]*curve.Stratum, error) {
 // "50", "97" or "2.5".
 func centileName(p float64) string { return strconv.FormatFloat(p, 'g', -1, 64) }
 
-// num formats a measurement-scale number for tables: six significant digits.
+// num formats a number as the shortest text that reads back as x: table
+// values are rounded first (roundTable), to six significant digits or as
+// many more as a centile needs.
 func num(x float64) string {
 	if math.IsNaN(x) {
 		return ""
 	}
-	return strconv.FormatFloat(x, 'g', 6, 64)
+	return strconv.FormatFloat(x, 'g', -1, 64)
 }
 
 // ageText formats an age.
@@ -287,13 +289,14 @@ func registerReadFlags(fs *flag.FlagSet) func(*intake.Spec) error {
 type columnFlags struct {
 	apply       func(*intake.Spec) error
 	subject     string
+	weight      string
 	stratumName string
 }
 
 func (c *columnFlags) register(fs *flag.FlagSet, withSubject bool) {
 	c.apply = registerReadFlags(fs)
 	if withSubject {
-		fs.StringVar(&c.subject, "child-column", "", "column holding the child id (points of one child are joined)")
+		fs.StringVar(&c.subject, "subject-column", "", "column holding the child (subject) id: a chart joins a child's points, compare makes its intervals cluster-robust")
 	}
 }
 
@@ -305,7 +308,7 @@ func (c *columnFlags) spec(cmd string, r *curve.Reference) (*intake.Spec, error)
 	if err := c.apply(s); err != nil {
 		return nil, usagef(cmd, "%s: %v", cmd, err)
 	}
-	s.Subject = c.subject
+	s.Subject, s.Weight = c.subject, c.weight
 	return s, nil
 }
 
@@ -338,3 +341,58 @@ func chartCentiles(st *curve.Stratum) []float64 {
 
 // shortAge formats an age for summaries: four significant digits.
 func shortAge(x float64) string { return strconv.FormatFloat(x, 'g', 4, 64) }
+
+// parseBands reads age band edges, the one grammar of --bands in every
+// command: FROM:TO:STEP (a shorter last band when STEP does not divide
+// TO-FROM) or a comma-separated list of increasing edges.
+func parseBands(s string) ([]float64, error) {
+	var edges []float64
+	if strings.Contains(s, ":") {
+		parts := strings.Split(s, ":")
+		if len(parts) != 3 {
+			return nil, fmt.Errorf("want FROM:TO:STEP, got %q", s)
+		}
+		var v [3]float64
+		for k, p := range parts {
+			x, err := strconv.ParseFloat(strings.TrimSpace(p), 64)
+			if err != nil || math.IsInf(x, 0) || math.IsNaN(x) {
+				return nil, fmt.Errorf("%q is not a number", p)
+			}
+			v[k] = x
+		}
+		from, to, step := v[0], v[1], v[2]
+		if !(step > 0) || !(to > from) {
+			return nil, fmt.Errorf("want FROM:TO:STEP with FROM < TO and STEP > 0, got %q", s)
+		}
+		n := math.Floor((to-from)/step*(1+gridSlack) + gridSlack)
+		if n > maxBands {
+			return nil, fmt.Errorf("%q makes more than %d bands", s, maxBands)
+		}
+		for k := 0; float64(k) <= n; k++ {
+			edges = append(edges, tidy(from+float64(k)*step))
+		}
+		if last := edges[len(edges)-1]; to-last > step*gridSlack {
+			edges = append(edges, to) // a shorter last band
+		} else {
+			edges[len(edges)-1] = to
+		}
+	} else {
+		var err error
+		if edges, err = parseNumbers(s, "band edges"); err != nil {
+			return nil, err
+		}
+	}
+	if len(edges) < 2 {
+		return nil, fmt.Errorf("need at least two edges, got %q", s)
+	}
+	for i := 1; i < len(edges); i++ {
+		if !(edges[i] > edges[i-1]) {
+			return nil, fmt.Errorf("edges must increase (%g after %g)", edges[i], edges[i-1])
+		}
+	}
+	return edges, nil
+}
+
+// maxBands is the most age bands --bands may make: more would be a typing
+// slip (a step of 0.001 for 0:60), not a table anyone reads.
+const maxBands = 10000

@@ -304,10 +304,24 @@ func TestBuild(t *testing.T) {
 			t.Errorf("report contains %q: not self-contained", bad)
 		}
 	}
-	for _, want := range []string{"Q-tests", "implausible against a first-pass fit", "This reference describes the sample"} {
+	for _, want := range []string{"Q-tests", "implausible against a first-pass fit", "This reference describes the sample",
+		"Schwarz criterion", "Sampling weights were not used", "effective df (median)", "Smoothness values tried: female",
+		"Expected normal score", "Observed minus expected z", "--sd-curves"} {
 		if !strings.Contains(rep, want) {
 			t.Errorf("report lacks %q", want)
 		}
+	}
+	// The criterion is written out, never shown as its plan key.
+	for _, bad := range []string{">sic<", "Unit normal quantile", ">Deviation<"} {
+		if strings.Contains(rep, bad) {
+			t.Errorf("report shows %q", bad)
+		}
+	}
+	if !strings.Contains(f.summary, "Schwarz criterion") {
+		t.Errorf("summary does not name the criterion in words:\n%s", f.summary)
+	}
+	if n := strings.Count(rep, "<td class=\"l\">chosen</td>"); n != 2 {
+		t.Errorf("report marks %d chosen smoothness values, want one per stratum", n)
 	}
 }
 
@@ -531,6 +545,22 @@ func TestChart(t *testing.T) {
 			t.Errorf("chart SVG does not label child k1")
 		}
 	}
+	// Part of the age range, with the curves at whole SD.
+	part := filepath.Join(f.dir, "part.svg")
+	mustGB(t, f.dir, "chart", "--ref", f.ref(), "--stratum", "male", "--ages", "0:24", "--sd-curves", "--out", part)
+	b, _ := os.ReadFile(part)
+	svg := string(b)
+	for _, want := range []string{">+2 SD<", ">−2 SD<", ">24<", ">18<"} {
+		if !strings.Contains(svg, want) {
+			t.Errorf("chart --ages 0:24 --sd-curves lacks %q", want)
+		}
+	}
+	if strings.Contains(svg, ">48<") {
+		t.Errorf("chart --ages 0:24 has a tick at 48 months")
+	}
+	if _, _, code := gb(t, f.dir, "chart", "--ref", f.ref(), "--stratum", "male", "--ages", "24", "--out", part); code != 2 {
+		t.Errorf("--ages 24: exit %d, want 2", code)
+	}
 	// Several strata and none chosen: bad usage.
 	if _, errOut, code := gb(t, f.dir, "chart", "--ref", f.ref(), "--out", filepath.Join(f.dir, "x.svg")); code != 2 || !strings.Contains(errOut, "--stratum") {
 		t.Errorf("no stratum: exit %d, %q", code, errOut)
@@ -610,7 +640,7 @@ func TestBadInput(t *testing.T) {
 		{"score column missing", []string{"score", "--ref", f.ref(), "--in", data, "--value-column", "kg", "--stratum", "female"}, 1, `d.csv:1: column "kg" not in header`},
 		{"score unknown stratum", []string{"score", "--ref", f.ref(), "--age", "3", "--value", "5", "--stratum", "other"}, 1, "unknown stratum"},
 		{"score out of range", []string{"score", "--ref", f.ref(), "--age", "300", "--value", "5", "--stratum", "male"}, 1, "age outside the reference's range"},
-		{"bad bands", []string{"check", "--ref", f.ref(), "--in", data, "--bands", "3,1"}, 2, "--bands must increase"},
+		{"bad bands", []string{"check", "--ref", f.ref(), "--in", data, "--bands", "3,1"}, 2, "--bands: edges must increase"},
 		{"score half single", []string{"score", "--ref", f.ref(), "--age", "3"}, 2, "--age and --value go together"},
 	}
 	for _, c := range cases {
@@ -636,7 +666,7 @@ func TestHelp(t *testing.T) {
 		"demo":  {"-out", "-measure", "-half"},
 		"table": {"-ref", "-ages", "-ages-file", "-centiles", "-stratum", "-format", "-velocity"},
 		"score": {"-ref", "-in", "-age", "-value", "-stratum", "-format", "-age-column", "-birth-column", "-visit-column", "-value-column", "-stratum-column"},
-		"chart": {"-ref", "-points", "-stratum", "-out", "-child-column"},
+		"chart": {"-ref", "-points", "-stratum", "-out", "-subject-column", "-ages", "-sd-curves"},
 		"check": {"-ref", "-in", "-out", "-bands"},
 	}
 	for cmd, fl := range flags {

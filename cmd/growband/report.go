@@ -52,16 +52,28 @@ const reportHTML = `<!DOCTYPE html>
 <tr><th class="l">rows excluded</th><td>{{.Excluded}}</td></tr>
 </table>
 <p>{{.Passes}}. Curves are quantile regressions on {{.Degree}} B-splines in {{.Scale}}, fitted without crossing at {{.TauCount}} levels; the chart shows centiles {{.Centiles}}.</p>
+<p>{{.Weights}}</p>
 <table>
-<tr><th class="l">stratum</th><th>n</th><th>ages</th><th>interior knots</th><th>lambda</th><th class="l">chosen by</th><th class="l">sample-size guard</th></tr>
-{{range .Strata}}<tr><td class="l">{{.Name}}</td><td>{{.N}}</td><td>{{.Ages}}</td><td>{{.Knots}}</td><td>{{.Lambda}}</td><td class="l">{{.Criterion}}</td><td class="l">{{.Guard}}</td></tr>
+<tr><th class="l">stratum</th><th>n</th><th>ages</th><th>interior knots</th><th>lambda</th><th>effective df (median)</th><th class="l">chosen by</th><th class="l">sample-size guard</th></tr>
+{{range .Strata}}<tr><td class="l">{{.Name}}</td><td>{{.N}}</td><td>{{.Ages}}</td><td>{{.Knots}}</td><td>{{.Lambda}}</td><td>{{.EDF}}</td><td class="l">{{.Criterion}}</td><td class="l">{{.Guard}}</td></tr>
 {{end}}</table>
+<p class="meta">The effective degrees of freedom of a fit are the number of rows its median curve passes through
+exactly (Koenker, Ng &amp; Portnoy 1994). {{.ScaleChoice}}</p>
+{{range .Candidates}}<h3>Smoothness values tried: {{.Name}}</h3>
+<p class="meta">In the order tried: interior knot counts from the fewest (no penalty), then penalty
+weights lambda at the best count; {{.Rule}}. The chosen value is marked.</p>
+<table>
+<tr><th>interior knots</th><th>lambda</th><th>{{.Criterion}}</th><th>effective df (median)</th><th class="l"></th></tr>
+{{range .Rows}}<tr><td>{{.Knots}}</td><td>{{.Lambda}}</td><td>{{.Score}}</td><td>{{.EDF}}</td><td class="l">{{if .Chosen}}chosen{{end}}</td></tr>
+{{end}}</table>
+{{end}}
 {{range .Notes}}<p class="meta">Note: {{.}}</p>
 {{end}}
 
 <h2>Centile charts</h2>
 {{range .Charts}}<figure>{{.}}</figure>
-{{end}}
+{{end}}<p class="meta">To draw the curves at &minus;3, &minus;2, +2 and +3 SD as well, or a part of the age range:
+<code>growband chart --ref reference.json --sd-curves --ages 0:24 --out chart.png</code>.</p>
 
 <h2>Rows not used</h2>
 {{if .Reasons}}<table>
@@ -104,6 +116,7 @@ inverted U skewness, an S shape kurtosis.</p>
 
 <div class="caution"><strong>Caution.</strong> {{.Caution}}</div>
 <p class="meta">References: Koenker R, Bassett G (1978). Regression quantiles. Econometrica 46, 33&ndash;50.
+Koenker R, Ng P, Portnoy S (1994). Quantile smoothing splines. Biometrika 81, 673&ndash;680.
 Royston P, Wright E M (2000). Goodness-of-fit statistics for age-specific reference intervals.
 Statistics in Medicine 19, 2943&ndash;2962. van Buuren S, Fredriks M (2001). Worm plot: a simple
 diagnostic device for modelling growth reference curves. Statistics in Medicine 20, 1259&ndash;1277.
@@ -147,8 +160,8 @@ type reportCoverage struct {
 func (b *built) report(w io.Writer, charts, worms [][]byte) error {
 	r := b.ref
 	type stratumRow struct {
-		Name, Ages, Knots, Lambda, Criterion, Guard string
-		N                                           int
+		Name, Ages, Knots, Lambda, EDF, Criterion, Guard string
+		N                                                int
 	}
 	type qRow struct {
 		Name, Test, Q, P string
@@ -182,10 +195,16 @@ func (b *built) report(w io.Writer, charts, worms [][]byte) error {
 		strata = append(strata, stratumRow{
 			Name: nameOr(st.Name), N: st.N, Ages: shortAge(st.AgeMin) + "–" + shortAge(st.AgeMax) + " " + r.AgeUnit,
 			Knots: fmt.Sprint(st.Smoothness.InteriorKnots), Lambda: fmt.Sprintf("%.4g", st.Smoothness.Lambda),
-			Criterion: st.Smoothness.Criterion, Guard: guardText(&st),
+			EDF: edfText(st.Smoothness.EDF), Criterion: curve.CriterionText(st.Smoothness.Criterion), Guard: guardText(&st),
 		})
 	}
 	data["Strata"] = strata
+	data["Candidates"] = candidateTables(r)
+	data["Weights"] = "Sampling weights were not used: every row counts once."
+	if w := b.plan.Input.Weight; w != "" {
+		data["Weights"] = fmt.Sprintf("Sampling weights (column %q) were used: each row counts by its weight in the fit, the smoothness criterion (at Kish's effective sample size) and the diagnostics' shares.", w)
+	}
+	data["ScaleChoice"] = fmt.Sprintf("The age scale (curves in %s) is set by the plan, not chosen by a criterion.", scaleText(r))
 	var ch, wm []template.HTML
 	for _, c := range charts {
 		ch = append(ch, inlineSVG(c))
@@ -265,4 +284,53 @@ func degreeText(d int) string {
 		return name
 	}
 	return fmt.Sprintf("degree-%d", d)
+}
+
+// edfText formats effective degrees of freedom; "–" when not computed.
+func edfText(edf int) string {
+	if edf <= 0 {
+		return "–"
+	}
+	return fmt.Sprint(edf)
+}
+
+type candidateRow struct {
+	Knots, Lambda, Score, EDF string
+	Chosen                    bool
+}
+
+type candidateTable struct {
+	Name, Criterion, Rule string
+	Rows                  []candidateRow
+}
+
+// candidateTables lists, per stratum, the smoothness values tried with
+// their criterion values.
+func candidateTables(r *curve.Reference) []candidateTable {
+	var out []candidateTable
+	for _, st := range r.Strata {
+		sm := st.Smoothness
+		if len(sm.Candidates) == 0 {
+			continue
+		}
+		t := candidateTable{Name: nameOr(st.Name), Criterion: capitalise(curve.CriterionText(sm.Criterion))}
+		switch sm.Criterion {
+		case curve.CriterionCV:
+			t.Criterion = "cross-validated check loss ± SE"
+			t.Rule = "the simplest value within one standard error of the lowest loss is chosen"
+		default:
+			t.Rule = "the lowest value is chosen, ties to the simpler"
+		}
+		for _, c := range sm.Candidates {
+			row := candidateRow{Knots: fmt.Sprint(c.InteriorKnots), Lambda: fmt.Sprintf("%.4g", c.Lambda),
+				Score: fmt.Sprintf("%.6g", c.Score), EDF: edfText(c.EDF),
+				Chosen: c.InteriorKnots == sm.InteriorKnots && c.Lambda == sm.Lambda}
+			if c.SE > 0 {
+				row.Score += fmt.Sprintf(" ± %.3g", c.SE)
+			}
+			t.Rows = append(t.Rows, row)
+		}
+		out = append(out, t)
+	}
+	return out
 }

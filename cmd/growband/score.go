@@ -27,6 +27,12 @@ reference's measure, and, when the reference has several strata, a
 
 With --age and --value, one measurement is scored; --stratum names its
 stratum when the reference has several.
+
+With --subject-column, each visit also gets cond_z and cond_centile: its
+place among the conditional centiles of the reference's conditional model
+(a plan with a [conditional] table) given the same child's most recent
+earlier visit at a modelled gap. A visit without one (a first visit, a gap
+outside the model's range) has them empty with the reason in flag.
 `
 
 func runScore(args []string, stdout, stderr io.Writer) error {
@@ -38,6 +44,7 @@ func runScore(args []string, stdout, stderr io.Writer) error {
 	format := fs.String("format", "csv", "output format: csv or json")
 	var cols columnFlags
 	cols.register(fs, false)
+	fs.StringVar(&cols.subject, "subject-column", "", "column holding the child id: adds cond_z and cond_centile, the place of each visit among the conditional centiles given the child's previous visit")
 	fs.StringVar(&cols.stratumName, "stratum", "", "stratum of the measurement(s); with --in, every row is taken to be in it")
 	pos, err := parseFlags(fs, scoreUsage, args, stdout)
 	if err != nil {
@@ -95,6 +102,11 @@ func runScore(args []string, stdout, stderr io.Writer) error {
 	out, err := scorefile.Score(ref, t, stratum)
 	if err != nil {
 		return err
+	}
+	if cols.subject != "" {
+		if err := scorefile.AddChanges(ref, t, out); err != nil {
+			return fmt.Errorf("score: %w", err)
+		}
 	}
 	n := 0
 	for _, o := range out {

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"strconv"
 
 	"growband/curve"
 )
@@ -85,6 +86,7 @@ func runTable(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
+	roundTable(ref, rows, cols, *velocity)
 	if *format == "json" {
 		return writeRowsJSON(stdout, ref, cols, rows, *velocity)
 	}
@@ -148,4 +150,59 @@ func singular(unit string) string {
 		return unit[:n-1]
 	}
 	return unit
+}
+
+// Table digits.
+const (
+	// tableDigits is the least number of significant digits of a table
+	// value: finer than any growth measurement is taken.
+	tableDigits = 6
+	// centileRoundTrip is how far, in centile points, the centile of a
+	// printed centile value may lie from the centile itself: half a unit in
+	// the third decimal, so a value printed for centile 0.135 or 99.865
+	// scores back to it when the centile is written with three decimals.
+	centileRoundTrip = 5e-4
+	// maxTableDigits is the most digits tried: a double holds 15 reliably.
+	maxTableDigits = 15
+)
+
+// roundTable rounds the values of a centile table to tableDigits
+// significant digits, or as many more (up to maxTableDigits) as it takes for the
+// printed value of each centile to score back to that centile within
+// centileRoundTrip; L, M, S and velocities to tableDigits.
+func roundTable(r *curve.Reference, rows []tableRow, centiles []float64, velocity bool) {
+	for _, tr := range rows {
+		for j, v := range tr.values {
+			if velocity || math.IsNaN(v) {
+				tr.values[j] = roundSig(v, tableDigits)
+				continue
+			}
+			// Where centiles coincide (curves meeting at the edge of the data)
+			// no number of digits tells them apart: tableDigits then.
+			tr.values[j] = roundSig(v, tableDigits)
+			for d := tableDigits; d <= maxTableDigits; d++ {
+				w := roundSig(v, d)
+				s, err := r.Score(tr.stratum, tr.age, w)
+				if err != nil {
+					break
+				}
+				if math.Abs(s.Centile-centiles[j]) <= centileRoundTrip {
+					tr.values[j] = w
+					break
+				}
+			}
+		}
+		if tr.lms != nil {
+			tr.lms.L, tr.lms.M, tr.lms.S = roundSig(tr.lms.L, tableDigits), roundSig(tr.lms.M, tableDigits), roundSig(tr.lms.S, tableDigits)
+		}
+	}
+}
+
+// roundSig rounds x to d significant digits.
+func roundSig(x float64, d int) float64 {
+	if x == 0 || math.IsNaN(x) || math.IsInf(x, 0) {
+		return x
+	}
+	y, _ := strconv.ParseFloat(strconv.FormatFloat(x, 'g', d, 64), 64)
+	return y
 }

@@ -18,6 +18,11 @@
 // approximate answer is rounded to a vertex and finished by the simplex
 // method (crossover.go). Large problems are first reduced by fixing the signs
 // of confidently signed residuals (preprocess.go); the answer is verified on
-// the full data, never assumed. A tau grid reuses each solution to reduce the
-// next problem (solve.go).
+// the full data, never assumed: the pass over the data that checks the fixed
+// signs also checks every optimality condition of the full problem (dual
+// feasibility of each row's multiplier, the constraints, stationarity and a
+// zero primal-dual gap; certify.go). An answer that fails is solved again,
+// and an error (ErrUnverified) is returned rather than an answer that is not
+// proven optimal. A tau grid reuses each solution to reduce the next problem
+// (solve.go).
 package solver

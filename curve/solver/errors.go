@@ -12,4 +12,8 @@ var (
 	ErrRankDeficient = errors.New("solver: design is rank deficient")
 	ErrInfeasible    = errors.New("solver: constraints are infeasible")
 	ErrNoConverge    = errors.New("solver: iteration limit reached without an optimal vertex")
+	// ErrUnverified: an answer failed the optimality check on the full
+	// problem and solving it again did not give one that passes. It means
+	// a defect in the solver, not in the data.
+	ErrUnverified = errors.New("solver: answer failed its optimality check")
 )

@@ -33,6 +33,7 @@ const (
 type testProblem struct {
 	name string
 	p    *Problem
+	grid []float64 // taus to solve by SolveGrid, or nil
 }
 
 // testRandomProblem returns a seeded random problem with up to maxN rows and
@@ -554,10 +555,20 @@ func TestRandomAgainstGonum(t *testing.T) {
 
 // regressions are problems that once broke (or were built to stress) the
 // solver. They stay here forever.
+// An entry whose problem has a grid is solved by SolveGrid at those taus and checked by
+// the certificate and against the unreduced solve at each tau (too large
+// for gonum's dense simplex).
 var regressions = []struct {
 	name string
 	make func() testProblem
 }{
+	{"growth data, n = 25,000, grid 0.5, 0.51, 0.97 (SolveGrid returned objective 2914.49 against the optimum 2544.22 at tau 0.97)",
+		func() testProblem {
+			// The jump from 0.51 to 0.97 is too far for the classification
+			// prepared at 0.51; it was rebuilt with 0.51's cost factors
+			// still applied to the pools.
+			return testProblem{p: testGrowthProblem(PreprocessRows + 5000), grid: []float64{0.5, 0.51, 0.97}}
+		}},
 	{"tied integer ages, y rounded to 0.1, tau 0.5", func() testProblem {
 		return testTiedAges(0.5, nil)
 	}},
@@ -631,7 +642,36 @@ func TestRegressions(t *testing.T) {
 		t.Run(r.name, func(t *testing.T) {
 			tp := r.make()
 			tp.name = r.name
+			if tp.grid != nil {
+				testGridAgainstUnreduced(t, tp.p, tp.grid)
+				return
+			}
 			testAgainstGonum(t, tp, lpCertTol)
 		})
+	}
+}
+
+// testGridAgainstUnreduced solves p by SolveGrid at taus and checks every
+// answer by its certificate and by the objective of the unreduced
+// interior-point solve of the same LP (exact identity: the reduction must
+// not change the optimum).
+func testGridAgainstUnreduced(t *testing.T, p *Problem, taus []float64) {
+	t.Helper()
+	sols, err := testSolveGrid(p, taus, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for k, tau := range taus {
+		q := *p
+		q.Tau = tau
+		checkCertificate(t, &q, sols[k], dataCertTol)
+		full, err := testSolve(&q, &Settings{Method: Interior, NoPreprocess: true})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !testRelClose(sols[k].Objective, full.Objective, identObjTol) {
+			t.Errorf("tau %v: grid objective %.15g, unreduced %.15g", tau, sols[k].Objective, full.Objective)
+		}
+		t.Logf("tau %v: %d reductions", tau, sols[k].Reductions)
 	}
 }

@@ -116,11 +116,18 @@ func solveReduced(full *table, nData int, tau float64, cr *carry, basis []int, m
 	tol, tie := zeroResidual*ys, tieResidual*ys
 	red := cr.ready
 	cr.ready = nil
+	if red != nil {
+		// Prepared on another view of the same data rows (a grid's first
+		// tau has no ordering rows): its pools stand, its other rows are
+		// full's.
+		red.full = full
+	}
 	if red == nil || !slices.Equal(red.guess, guess) {
 		red = cr.reduction(full, nData)
 		red.classify(guess, tau, m)
 	}
 	repairs := 0
+	rebuilt := false
 	for {
 		t := red.table()
 		start := red.mapBasis(basis, t)
@@ -152,7 +159,23 @@ func solveReduced(full *table, nData int, tau float64, cr *carry, basis []int, m
 			next = cr.reduction(full, nData)
 			next.prepare(v.b, tau, ah)
 		}
-		bad, zero, obj := red.verify(v.b, tol, tie, next)
+		bad, zero, obj, cert := red.verify(v.b, tol, tie, next, t, v.dual)
+		if len(bad) == 0 && cert != nil {
+			// Every pooled sign holds, yet the answer is not optimal for
+			// the full problem: the reduction itself is wrong (a defect,
+			// not a narrow band). Rebuild it from nothing once; if that
+			// fails too, the caller solves the full problem unreduced.
+			cr.spare, cr.ready = nil, nil
+			if rebuilt {
+				return nil, &reductionError{cert}
+			}
+			rebuilt = true
+			repairs++
+			red = &reduction{sign: make([]int8, nData), full: full, nData: nData, scale: cr.scale}
+			red.classify(guess, tau, m)
+			basis = nil
+			continue
+		}
 		if len(bad) == 0 {
 			v.iters, v.repairs = iters, repairs
 			cr.obj, cr.guess, cr.ready = obj, v.b, next
@@ -182,12 +205,19 @@ func solveReduced(full *table, nData int, tau float64, cr *carry, basis []int, m
 	}
 }
 
+// reductionError reports a reduced answer that failed the optimality check
+// on the full problem even after the reduction was rebuilt.
+type reductionError struct{ cert error }
+
+func (e *reductionError) Error() string { return "reduced solve: " + e.cert.Error() }
+func (e *reductionError) Unwrap() error { return e.cert }
+
 // reduction returns an empty reduction of full, reusing the spare one's
 // buffers (a spent reduction's pools are not read again).
 func (cr *carry) reduction(full *table, nData int) *reduction {
 	red := cr.spare
 	cr.spare = nil
-	if red == nil || red.full != full || len(red.sign) != nData {
+	if red == nil || red.full.x != full.x || len(red.sign) != nData {
 		red = &reduction{sign: make([]int8, nData)}
 	}
 	red.full, red.nData, red.scale = full, nData, cr.scale
@@ -323,7 +353,11 @@ func (red *reduction) band(guess []float64, tau float64, m int) {
 func (red *reduction) classify(guess []float64, tau float64, m int) {
 	red.band(guess, tau, m)
 	red.resetPools()
-	red.pass(nil, 0, 0, red)
+	// The table's costs are already this tau's: a reduction prepared by
+	// the previous solve carries factors to rescale that tau's costs,
+	// which must not apply to a classification made afresh.
+	red.costUp, red.costDown = 1, 1
+	red.pass(nil, 0, 0, red, nil, nil)
 }
 
 // prepare sets red up to be filled by the verifying pass of the answer b at
@@ -348,39 +382,54 @@ func (red *reduction) prepare(b []float64, tau float64, ah *ahead) {
 	red.costUp, red.costDown = ah.tau/tau, (1-ah.tau)/(1-tau)
 }
 
-// verify returns the pooled rows whose residual at b has the wrong sign
-// (beyond tol), the soft rows whose residual is within tie of zero, and the
-// objective at b. When next is not nil the same pass classifies the rows for
-// next (prepared for its tau; the costs are rescaled to it afterwards).
-func (red *reduction) verify(b []float64, tol, tie float64, next *reduction) (bad, zero []int, obj float64) {
-	bad, zero, obj = red.pass(b, tol, tie, next)
+// verify checks the answer b of the reduced table t, whose multipliers are
+// dual, on the full problem. It returns the pooled rows whose residual at b
+// has the wrong sign (beyond tol), the soft rows whose residual is within
+// tie of zero, the objective at b, and the outcome of the full optimality
+// check (see certifier): every row's multiplier (a pooled row's fixed by its
+// sign, a kept row's the reduced table's) against its residual, the
+// constraints, stationarity and the primal-dual gap. When next is not nil
+// the same pass classifies the rows for next (prepared for its tau; the
+// costs are rescaled to it afterwards).
+func (red *reduction) verify(b []float64, tol, tie float64, next *reduction, t *table, dual []float64) (bad, zero []int, obj float64, cert error) {
+	ck := newCertifier(red.full.p(), tol)
+	bad, zero, obj = red.pass(b, tol, tie, next, ck, dual)
 	f := red.full
-	// The remaining rows: penalty and hard rows.
+	// The remaining rows: penalty rows, whose multipliers follow the kept
+	// data rows in t, and hard rows, which follow t's soft rows.
+	nk := len(red.keep)
 	for _, pt := range f.parts() {
 		w := pt.d.Width
 		for k := max(red.nData-pt.off, 0); k < len(pt.d.First); k++ {
 			i := pt.off + k
-			if i >= f.nSoft {
-				break
-			}
 			fi := pt.d.First[k]
-			r := f.y[i] - dot(pt.d.Val[k*w:k*w+w], b[fi:fi+w])
+			xi := pt.d.Val[k*w : k*w+w]
+			r := f.y[i] - dot(xi, b[fi:fi+w])
+			if i >= f.nSoft {
+				j := i - f.nSoft
+				ck.hard(j, f.y[i], -r, dual[t.nSoft+j], xi)
+				continue
+			}
 			obj += rho(r, f.a[i], f.c[i])
 			if math.Abs(r) <= tie {
 				zero = append(zero, i)
 			}
+			ck.soft(i, f.y[i], r, dual[nk+i-red.nData], f.a[i], f.c[i], fi, xi)
 		}
 	}
-	return bad, zero, obj
+	ck.primal = obj
+	return bad, zero, obj, ck.err()
 }
 
 // pass sweeps the data rows once. With b, it returns the pooled rows of red
 // whose residual at b has the wrong sign (beyond tol), the rows whose
-// residual is within tie of zero and the data rows' objective at b. With
-// into, it pools into's rows by their scaled residuals at into.guess, with
-// costs times into.costUp and into.costDown. Both are done in one pass as the
+// residual is within tie of zero and the data rows' objective at b, and it
+// adds every data row to ck with its multiplier: a pooled row's fixed by its
+// sign, a kept row's from dual (in the order of red.keep). With into, it
+// pools into's rows by their scaled residuals at into.guess, with costs
+// times into.costUp and into.costDown. Both are done in one pass as the
 // sweep is bound by reading the rows from memory.
-func (red *reduction) pass(b []float64, tol, tie float64, into *reduction) (bad, zero []int, obj float64) {
+func (red *reduction) pass(b []float64, tol, tie float64, into *reduction, ck *certifier, dual []float64) (bad, zero []int, obj float64) {
 	f := red.full
 	x, n := f.x, red.nData
 	w := x.Width
@@ -401,7 +450,12 @@ func (red *reduction) pass(b []float64, tol, tie float64, into *reduction) (bad,
 		klo, khi = into.klo, into.khi
 	}
 	sign := red.sign[:n]
-	var sumAbs, sumLin float64
+	var sumAbs, sumLin, yd, ydAbs float64
+	var st, stAbs []float64
+	kept := 0
+	if check {
+		st, stAbs = ck.st, ck.stAbs
+	}
 	for i, fi := range first {
 		xi := x.Val[i*w : i*w+w]
 		if check {
@@ -411,11 +465,29 @@ func (red *reduction) pass(b []float64, tol, tie float64, into *reduction) (bad,
 			// which orders NaN and signed zeros).
 			sumAbs += (ca[i] + cc[i]) * math.Abs(ri)
 			sumLin += (ca[i] - cc[i]) * ri
-			if float64(sign[i])*ri < -tol {
+			s := float64(sign[i])
+			if s*ri < -tol {
 				bad = append(bad, i)
 			}
 			if math.Abs(ri) <= tie {
 				zero = append(zero, i)
+			}
+			if sign[i] == 0 {
+				// A kept row: its multiplier is the reduced table's.
+				ck.soft(i, y[i], ri, dual[kept], ca[i], cc[i], fi, xi)
+				kept++
+			} else {
+				// A pooled row: a_i above, -c_i below, without branching.
+				d := 0.5 * ((1+s)*ca[i] - (1-s)*cc[i])
+				sv, sa := st[fi:fi+w], stAbs[fi:fi+w]
+				sv, sa = sv[:len(xi)], sa[:len(xi)]
+				ad := math.Abs(d)
+				for k, v := range xi {
+					sv[k] += d * v
+					sa[k] += ad * math.Abs(v)
+				}
+				yd += y[i] * d
+				ydAbs += math.Abs(y[i] * d)
 			}
 		}
 		if into == nil {
@@ -456,6 +528,10 @@ func (red *reduction) pass(b []float64, tol, tie float64, into *reduction) (bad,
 		downW += gd
 	}
 	obj = (sumAbs + sumLin) / 2
+	if check {
+		ck.dual += yd
+		ck.dualAbs += ydAbs
+	}
 	if into != nil {
 		into.scale.filled = true
 		for k := range up {

@@ -109,6 +109,16 @@ type Settings struct {
 	// tau, or other constraint bounds). Its residual signs reduce the problem
 	// and its basis starts the simplex method; the answer is still verified.
 	Start *Solution
+	// Ordered, for SolveGrid, constrains each tau's coefficients by those
+	// of the tau before it on the walk outward from the tau nearest 0.5:
+	// b_tau >= b_prev componentwise above that tau and b_tau <= b_prev
+	// below it. With basis functions that are non-negative and sum to one
+	// (B-splines) the fitted curves then never cross; see SolveGrid.
+	Ordered bool
+	// Solved, if not nil, is called by SolveGrid after each tau is solved
+	// and verified, from the calling goroutine, with that tau; a caller
+	// can report progress with it.
+	Solved func(tau float64)
 }
 
 // SimplexRows is the problem size (rows) below which Auto uses the simplex
@@ -269,12 +279,33 @@ func resize(s []float64, n int) []float64 {
 // Solve returns the exact optimal vertex of p. It returns a wrapped typed
 // error (see errors.go) for bad data or an infeasible or unsolved problem,
 // and panics only on inconsistent shapes (a programming mistake).
+//
+// It is SolveGrid at the one tau p.Tau: a single problem and a grid take the
+// same path.
 func Solve(p *Problem, s *Settings) (*Solution, error) {
-	return solve(p, s)
+	sols, err := solveGrid(p, []float64{p.Tau}, s)
+	if err != nil {
+		return nil, err
+	}
+	return sols[0], nil
 }
 
-// SolveGrid solves p at each tau of taus (in any order), starting each from
-// the solution at the nearest tau already solved. p.Tau is ignored.
+// SolveGrid solves p at each tau of taus (in any order): first the tau
+// nearest 0.5, then outward both ways, each tau started from its neighbour
+// on the walk (see preprocess.go: the pass over the data that verifies one
+// tau classifies the rows for the next). p.Tau is ignored; s.Start, if
+// given, starts the first tau.
+//
+// With s.Ordered each tau after the first is also constrained by its
+// neighbour on the walk (Settings.Ordered). Its Solution then solves p with
+// p.Cols further constraints after p.G, the ordering rows, in coefficient
+// order: b_j >= b_prev,j above the first tau and -b_j >= -b_prev,j below
+// it; Basis and ConstraintDual number them so (the first tau's Solution has
+// none). This is the stepwise scheme of Wu & Liu (2009, Statistics and Its
+// Interface 2, 299–310) with a componentwise constraint set.
+//
+// Every answer is verified on the full problem as Solve's are. SolveGrid
+// returns the first error, wrapped with the tau concerned.
 func SolveGrid(p *Problem, taus []float64, s *Settings) ([]*Solution, error) {
 	return solveGrid(p, taus, s)
 }

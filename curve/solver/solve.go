@@ -2,6 +2,7 @@ package solver
 
 import (
 	"errors"
+	"fmt"
 	"math"
 	"slices"
 )
@@ -69,21 +70,6 @@ func solveTable(t *table, basis []int, method Method, maxIter int) (*vertex, err
 	return &vertex{b: s.b, basis: s.basis, dual: s.dual(), iters: iters + s.iter, method: method}, nil
 }
 
-func solve(pr *Problem, s *Settings) (*Solution, error) {
-	if err := pr.validate(); err != nil {
-		return nil, err
-	}
-	if s == nil {
-		s = &Settings{}
-	}
-	t := newTable(pr)
-	if _, err := coldBasis(t); err != nil {
-		return nil, err
-	}
-	sol, err := solveOn(t, pr, s, s.Start, &carry{})
-	return sol, err
-}
-
 // solveOn solves the problem pr whose internal form is t (with the costs of
 // pr.Tau), starting from start when it fits and is near enough. cr carries
 // what a reduced solve on t leaves for the next (see carry): the guess to
@@ -105,7 +91,13 @@ func solveOn(t *table, pr *Problem, s *Settings, start *Solution, cr *carry) (*S
 	var err error
 	if method != Simplex && !s.NoPreprocess && n > PreprocessRows {
 		m := coldMiddle(n, t.p())
-		if basis != nil && cr.guess == nil && !nearStart(t, n, pr.Tau, start.Coef) {
+		// A neighbour far away in tau (a coarse grid) leaves a band as wide
+		// as the shift between the two; a cold start is cheaper then.
+		guess := cr.guess
+		if guess == nil && basis != nil {
+			guess = start.Coef
+		}
+		if basis != nil && !nearStart(t, n, pr.Tau, guess) {
 			basis = nil
 		}
 		if basis == nil {
@@ -117,11 +109,17 @@ func solveOn(t *table, pr *Problem, s *Settings, start *Solution, cr *carry) (*S
 			}
 		}
 		a, err := solveReduced(t, n, pr.Tau, cr, basis, m, method, s.MaxIter)
-		if err != nil {
-			return nil, err
+		var re *reductionError
+		if !errors.As(err, &re) {
+			if err != nil {
+				return nil, err
+			}
+			a.v.method = Interior
+			return solution(t, a), nil
 		}
-		a.v.method = Interior
-		return solution(t, a), nil
+		// The reduction failed its check twice: solve the whole problem.
+		method, basis = Interior, nil
+		*cr = carry{}
 	}
 	if method == Interior {
 		basis = nil
@@ -131,8 +129,12 @@ func solveOn(t *table, pr *Problem, s *Settings, start *Solution, cr *carry) (*S
 	}
 	r := make([]float64, t.rows())
 	t.residuals(r, v.b)
-	return solution(t, &answer{v: v, r: r, obj: t.objective(r),
-		dualAt: func(i int) float64 { return v.dual[i] }, mu: v.dual[t.nSoft:]}), nil
+	obj := t.objective(r)
+	dualAt := func(i int) float64 { return v.dual[i] }
+	if err := certifyTable(t, v.b, r, dualAt, v.dual[t.nSoft:], obj); err != nil {
+		return nil, err
+	}
+	return solution(t, &answer{v: v, r: r, obj: obj, dualAt: dualAt, mu: v.dual[t.nSoft:]}), nil
 }
 
 // nearSample: the share of rows below a neighbouring solution is read off
@@ -258,7 +260,7 @@ func solveGrid(pr *Problem, taus []float64, s *Settings) ([]*Solution, error) {
 		return out, nil
 	}
 	// Validate and build the table once; only the data rows' costs depend
-	// on tau.
+	// on tau (and, when ordered, the bounds of the ordering rows).
 	q := *pr
 	q.Tau = taus[order[0]]
 	for _, tau := range taus {
@@ -267,11 +269,28 @@ func solveGrid(pr *Problem, taus []float64, s *Settings) ([]*Solution, error) {
 			break
 		}
 	}
+	nG, p := len(pr.G), pr.X.Cols
+	if s.Ordered {
+		// p ordering rows after the problem's own constraints; order sets
+		// their signs and bounds at each step.
+		q.G = slices.Grow(slices.Clip(pr.G), p)
+		q.H = append(slices.Clip(pr.H), make([]float64, p)...)
+		for j := range p {
+			g := make([]float64, p)
+			g[j] = 1
+			q.G = append(q.G, g)
+		}
+	}
 	if err := q.validate(); err != nil {
 		return nil, err
 	}
 	t := newTable(&q)
-	if _, err := coldBasis(t); err != nil {
+	// base is the table without the ordering rows, for the first tau.
+	base := t
+	if s.Ordered {
+		base = t.firstHard(nG)
+	}
+	if _, err := coldBasis(base); err != nil {
 		return nil, err
 	}
 	// Start at the tau nearest the median and walk outwards both ways.
@@ -281,13 +300,13 @@ func solveGrid(pr *Problem, taus []float64, s *Settings) ([]*Solution, error) {
 			mid = k
 		}
 	}
-	one := func(k int, from *Solution, cr *carry) (*Solution, error) {
+	one := func(tab *table, k int, from *Solution, cr *carry) (*Solution, error) {
 		q.Tau = taus[order[k]]
-		t.setTau(&q)
-		return solveOn(t, &q, s, from, cr)
+		tab.setTau(&q)
+		return solveOn(tab, &q, s, from, cr)
 	}
 	// Each solve also classifies the rows for the next tau (cr.ahead).
-	n, p := pr.X.Rows(), t.p()
+	n := pr.X.Rows()
 	aheadOf := func(k, dir int, before []float64) *ahead {
 		if k+dir < 0 || k+dir >= len(order) {
 			return nil
@@ -298,27 +317,40 @@ func solveGrid(pr *Problem, taus []float64, s *Settings) ([]*Solution, error) {
 		}
 		return ah
 	}
-	cr := &carry{ahead: aheadOf(mid, 1, nil)}
-	first, err := one(mid, s.Start, cr)
+	dirs := []int{1, -1}
+	if mid == len(order)-1 {
+		dirs = []int{-1, 1} // nothing above: classify for the side below
+	}
+	cr := &carry{ahead: aheadOf(mid, dirs[0], nil)}
+	first, err := one(base, mid, s.Start, cr)
 	if err != nil {
-		return nil, err
+		return nil, fmt.Errorf("tau %g: %w", taus[order[mid]], err)
 	}
 	out[order[mid]] = first
-	for _, dir := range []int{1, -1} {
+	if s.Solved != nil {
+		s.Solved(taus[order[mid]])
+	}
+	for d, dir := range dirs {
 		prev := first
-		if dir < 0 {
+		if d > 0 {
 			// Back at the median: the rows were classified for the other
 			// side.
 			cr.guess, cr.ready = first.Coef, nil
 		}
 		for k := mid + dir; k >= 0 && k < len(order); k += dir {
 			cr.ahead = aheadOf(k, dir, prev.Coef)
-			sol, err := one(k, prev, cr)
+			if s.Ordered {
+				t.order(nG, dir, prev.Coef)
+			}
+			sol, err := one(t, k, prev, cr)
 			if err != nil {
-				return nil, err
+				return nil, fmt.Errorf("tau %g: %w", taus[order[k]], err)
 			}
 			out[order[k]] = sol
 			prev = sol
+			if s.Solved != nil {
+				s.Solved(taus[order[k]])
+			}
 		}
 	}
 	return out, nil

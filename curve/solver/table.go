@@ -223,3 +223,32 @@ func rowDot(x, b []float64, f int) float64 {
 	}
 	return s
 }
+
+// firstHard returns a view of t, a table of a problem without pooled rows,
+// that keeps only its first m hard rows. The view shares t's rows, costs
+// included.
+func (t *table) firstHard(m int) *table {
+	v := *t
+	w := t.wide
+	v.wide = &Design{Cols: w.Cols, Width: w.Width, First: w.First[:m], Val: w.Val[:m*w.Width]}
+	end := t.nSoft + m
+	v.y, v.a, v.c = t.y[:end], t.a[:end], t.c[:end]
+	v.ys, v.cs = 0, 0
+	return &v
+}
+
+// order sets the hard rows from the m-th on, which must be the rows of the
+// identity (see solveGrid), to b_j >= prev_j for dir > 0 and -b_j >= -prev_j
+// for dir < 0.
+func (t *table) order(m, dir int, prev []float64) {
+	w := t.wide
+	p := t.p()
+	s := float64(dir)
+	for j := range p {
+		row := w.Val[(m+j)*p : (m+j+1)*p]
+		clear(row)
+		row[j] = s
+		t.y[t.nSoft+m+j] = s * prev[j]
+	}
+	t.ys = 0
+}

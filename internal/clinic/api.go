@@ -73,6 +73,7 @@ type itemJSON struct {
 	Birth     *string  `json:"birth"`
 	Measured  *string  `json:"measured"`
 	Value     *float64 `json:"value"`
+	Child     *string  `json:"child"`
 }
 
 // decodeError turns an encoding/json error into an *inputError naming the
@@ -103,7 +104,7 @@ func decodeError(err error, prefix string) error {
 		if u, err := strconv.Unquote(name); err == nil && u != "" {
 			name = u
 		}
-		return fieldErr(prefix+name, "unknown field; known: reference, stratum, age, birth, measured, value")
+		return fieldErr(prefix+name, "unknown field; known: reference, stratum, age, birth, measured, value, child")
 	}
 	return fieldErr(bodyField, "%v", err)
 }
@@ -129,6 +130,9 @@ func decodeItem(raw []byte, prefix string) (*measurement, error) {
 	}
 	if it.Stratum != nil {
 		m.Stratum = *it.Stratum
+	}
+	if it.Child != nil {
+		m.Child = *it.Child
 	}
 	if it.Value == nil {
 		return nil, fieldErr(prefix+"value", "missing: the measurement is required")
@@ -226,6 +230,7 @@ func (h *handler) handleScore(w http.ResponseWriter, r *http.Request) {
 			return
 		}
 	}
+	h.cat.addChanges(items, out)
 	h.audit.record("api", out...)
 	if list {
 		writeJSON(w, http.StatusOK, out)

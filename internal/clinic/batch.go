@@ -85,7 +85,7 @@ func (h *handler) startBatch(name string, data []byte, ref int, opt *intake.Opti
 // connection, so that a client never takes a truncated file for a whole one.
 func (j *batchJob) write(w io.Writer) {
 	defer j.rd.Close()
-	cw := scorefile.NewCSVWriter(w, j.rd.Header())
+	cw := scorefile.NewCSVWriter(w, j.rd.Header(), false)
 	for {
 		rec, err := j.rd.Next()
 		if err == io.EOF {

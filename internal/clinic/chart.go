@@ -5,6 +5,7 @@ import (
 	"fmt"
 
 	"growband/curve"
+	"growband/internal/refchart"
 	"growband/render"
 )
 
@@ -24,31 +25,11 @@ type point struct {
 // chartSVG draws the centile chart of one stratum with the child's points
 // (ages inside the stratum's range) as a trajectory, and returns the SVG.
 func chartSVG(r *curve.Reference, st *curve.Stratum, pts []point) ([]byte, error) {
-	ages := make([]float64, chartAges)
-	for i := range ages {
-		ages[i] = st.AgeMin + (st.AgeMax-st.AgeMin)*float64(i)/float64(chartAges-1)
-	}
-	ages[chartAges-1] = st.AgeMax
-	tab, err := r.Table(st.Name, ages, nil)
+	c, _, err := refchart.Centiles(r, st, &refchart.Options{Points: chartAges})
 	if err != nil {
 		return nil, fmt.Errorf("centile table: %w", err)
 	}
-	c := &render.Centiles{
-		Measure: r.Measure, Unit: r.Unit, AgeUnit: r.AgeUnit, Stratum: st.Name,
-		Caution: cautionOf(r),
-	}
-	for j, tau := range tab.Taus {
-		cv := render.Curve{Centile: roundCentile(100 * tau), Ages: ages, Values: make([]float64, len(ages))}
-		for i := range ages {
-			cv.Values[i] = tab.Values[i][j]
-		}
-		for _, b := range st.Bands {
-			if b.Tau == tau && len(b.Ages) > 1 {
-				cv.Band = &render.Band{Ages: b.Ages, Lo: b.Lo, Hi: b.Hi}
-			}
-		}
-		c.Curves = append(c.Curves, cv)
-	}
+	c.Caution = cautionOf(r)
 	if len(pts) > 0 {
 		kid := render.Child{Label: "child"}
 		for _, p := range pts {

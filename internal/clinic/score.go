@@ -97,6 +97,7 @@ type measurement struct {
 	Birth     string
 	Measured  string
 	Value     float64
+	Child     string // child id: visits of one child get conditional scores
 }
 
 // fields names the input fields of a measurement in errors; the page and the
@@ -122,6 +123,7 @@ type result struct {
 	Centile   *float64 `json:"centile"`
 	Flags     []string `json:"flags"`
 	Note      string   `json:"note,omitempty"`
+	*change
 }
 
 // score scores m. Problems with the input are returned as *inputError

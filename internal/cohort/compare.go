@@ -8,6 +8,7 @@ import (
 	"sort"
 
 	"growband/curve"
+	"growband/internal/scorefile"
 )
 
 // DefaultLevel is the coverage of every interval when Options.Level is 0
@@ -59,10 +60,12 @@ type Result struct {
 	Weighted  bool `json:"weighted"`
 	// Method says in words how the intervals were computed.
 	Method string `json:"method"`
-	Rows   int    `json:"rows"`   // rows given
+	Rows   int    `json:"rows"`   // rows given (Run: the rows of the file, read or not)
 	Scored int    `json:"scored"` // rows scored and summarised
 	// Unscored lists every row that could not be used, with the reason.
 	Unscored []Unscored `json:"unscored"`
+	// NotScored counts the rows not used by reason (Unscored.Kind).
+	NotScored []ReasonCount `json:"not_scored"`
 	// OutsideBands counts scored rows outside every age band.
 	OutsideBands int `json:"outside_bands"`
 	// Z holds each row's z-score (NaN for unscored rows), in row order.
@@ -72,9 +75,23 @@ type Result struct {
 
 // Unscored is a row that could not be scored or used.
 type Unscored struct {
-	Row    int    `json:"row"` // index into the data columns
-	Reason string `json:"reason"`
+	Row    int    `json:"row"`    // index into the data columns
+	Kind   string `json:"kind"`   // the reason in a few words, for counting
+	Reason string `json:"reason"` // the reason in full, with the values
 }
+
+// ReasonCount is the number of rows not used for one reason.
+type ReasonCount struct {
+	Reason string `json:"reason"`
+	N      int    `json:"n"`
+}
+
+// Reasons of rows Compare leaves out, besides those of scoring
+// (scorefile.Reason).
+const (
+	KindWeight      = "weight not a positive number"
+	KindImplausible = "implausible: |z| above the limit"
+)
 
 // Summary describes the z-scores of one group of rows.
 type Summary struct {
@@ -133,11 +150,11 @@ func Compare(ref *curve.Reference, d *curve.Data, opt *Options) (*Result, error)
 	for i := range res.Z {
 		res.Z[i] = math.NaN()
 	}
-	reasons := map[int]string{}
+	reasons := map[int]Unscored{}
 	if d.Weight != nil {
 		for i, w := range d.Weight {
 			if !(w > 0 && !math.IsInf(w, 0)) {
-				reasons[i] = fmt.Sprintf("weight %g is not a positive number", w)
+				reasons[i] = Unscored{i, KindWeight, fmt.Sprintf("weight %g is not a positive number", w)}
 			}
 		}
 	}
@@ -148,7 +165,7 @@ func Compare(ref *curve.Reference, d *curve.Data, opt *Options) (*Result, error)
 	case errors.As(err, &rowErrs):
 		for _, re := range rowErrs {
 			if _, ok := reasons[re.Row]; !ok {
-				reasons[re.Row] = re.Err.Error()
+				reasons[re.Row] = Unscored{re.Row, scorefile.Reason(ref, re.Err), re.Err.Error()}
 			}
 		}
 	default:
@@ -157,12 +174,12 @@ func Compare(ref *curve.Reference, d *curve.Data, opt *Options) (*Result, error)
 	byStratum := map[string][]int{}
 	var all []int
 	for i := range n {
-		if r, ok := reasons[i]; ok {
-			res.Unscored = append(res.Unscored, Unscored{Row: i, Reason: r})
+		if u, ok := reasons[i]; ok {
+			res.Unscored = append(res.Unscored, u)
 			continue
 		}
 		if z := scores[i].Z; o.Limit > 0 && math.Abs(z) > o.Limit {
-			res.Unscored = append(res.Unscored, Unscored{Row: i, Reason: fmt.Sprintf("implausible: |z| = %.3g > %g", math.Abs(z), o.Limit)})
+			res.Unscored = append(res.Unscored, Unscored{i, KindImplausible, fmt.Sprintf("implausible: |z| = %.3g > %g", math.Abs(z), o.Limit)})
 			continue
 		}
 		res.Z[i] = scores[i].Z
@@ -171,6 +188,7 @@ func Compare(ref *curve.Reference, d *curve.Data, opt *Options) (*Result, error)
 		all = append(all, i)
 	}
 	res.Scored = len(all)
+	res.NotScored = countKinds(res.Unscored)
 	if len(all) == 0 {
 		return nil, fmt.Errorf("%w: none of the %d rows can be scored", ErrData, n)
 	}
@@ -207,6 +225,22 @@ func Compare(ref *curve.Reference, d *curve.Data, opt *Options) (*Result, error)
 	}
 	res.Groups = append(res.Groups, summarize(KindAll, "", lo, hi, all, d, res.Z, o.Level))
 	return res, nil
+}
+
+// countKinds counts rows by Kind, in order of first appearance.
+func countKinds(u []Unscored) []ReasonCount {
+	var out []ReasonCount
+	at := map[string]int{}
+	for _, x := range u {
+		k, ok := at[x.Kind]
+		if !ok {
+			k = len(out)
+			at[x.Kind] = k
+			out = append(out, ReasonCount{Reason: x.Kind})
+		}
+		out[k].N++
+	}
+	return out
 }
 
 func stratumOf(ref *curve.Reference, d *curve.Data, i int) string {

@@ -422,3 +422,14 @@ func TestSandwichIdentities(t *testing.T) {
 		t.Errorf("twice: n_eff %g, want %g; method %q", gt.Below2.NEff, n-1, rt.Method)
 	}
 }
+
+// finite returns the finite values of z.
+func finite(z []float64) []float64 {
+	var out []float64
+	for _, v := range z {
+		if !math.IsNaN(v) && !math.IsInf(v, 0) {
+			out = append(out, v)
+		}
+	}
+	return out
+}

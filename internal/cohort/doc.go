@@ -1,8 +1,9 @@
 // Package cohort compares a cohort of measurements with a growth reference:
 // the distribution of the cohort's z-scores per stratum and age band against
 // the standard normal the reference implies, the difference between two
-// cohorts, and the difference between two references in z units. It also
-// holds the "growband compare" command (RunCompare).
+// cohorts, and the difference between two references in z units. Run
+// carries out a whole comparison (tables and charts) from Go values; the
+// command's flags live in cmd/growband.
 //
 // For a group of n rows with z-scores z_i, weights w_i (1 without survey
 // weights) and subjects g (each row its own subject without ids), the mean

@@ -11,10 +11,3 @@ var (
 	// ErrNoCommon: two references without a common stratum or age range.
 	ErrNoCommon = errors.New("cohort: the references have nothing in common")
 )
-
-// UsageError is a command line RunCompare cannot run (a bad or missing
-// flag): the caller exits with status 2. Other errors are failures (status
-// 1); a request for help returns flag.ErrHelp after writing the usage text.
-type UsageError struct{ Msg string }
-
-func (e *UsageError) Error() string { return e.Msg }

@@ -2,14 +2,10 @@ package cohort
 
 import (
 	"fmt"
-	"image/color"
 	"math"
 
-	"gonum.org/v1/plot/plotter"
-	"gonum.org/v1/plot/vg"
-	"gonum.org/v1/plot/vg/draw"
-
 	"growband/curve"
+	"growband/internal/refchart"
 	"growband/render"
 )
 
@@ -26,8 +22,8 @@ const ownMinRows = 100
 const ownGridPoints = 61
 
 // ownCentileChart fits the cohort's 3rd, 50th and 97th centiles of one
-// stratum with curve.Fit and draws them as dark dashed lines over the
-// reference's shaded centile bands and the cohort's points.
+// stratum with curve.Fit and draws them as an overlay of dashed lines over
+// the reference's shaded centile bands and the cohort's points.
 func ownCentileChart(ref *curve.Reference, d *curve.Data, res *Result, stratum, cohort string) (*render.Figure, error) {
 	st, err := ref.Stratum(stratum)
 	if err != nil {
@@ -59,47 +55,15 @@ func ownCentileChart(ref *curve.Reference, d *curve.Data, res *Result, stratum, 
 	if !(lo < hi) {
 		return nil, fmt.Errorf("the cohort's ages do not overlap the reference's")
 	}
-	ages := make([]float64, ownGridPoints)
-	for k := range ages {
-		ages[k] = lo + (hi-lo)*float64(k)/float64(ownGridPoints-1)
-	}
-	ages[ownGridPoints-1] = hi
-	rt, err := ref.Table(st.Name, ages, nil)
+	c, _, err := refchart.Centiles(ref, st, &refchart.Options{AgeLo: lo, AgeHi: hi, Points: ownGridPoints})
 	if err != nil {
 		return nil, err
 	}
-	ot, err := fit.Table(fs.Name, ages, nil)
+	mine, err := refchart.Curves(fit, fs, c.Curves[0].Ages, nil)
 	if err != nil {
 		return nil, err
 	}
-	c := &render.Centiles{Measure: ref.Measure, Unit: ref.Unit, AgeUnit: ref.AgeUnit, Stratum: st.Name,
-		Data: &render.Points{Ages: own.Age, Values: own.Value}, Caution: curve.Caution}
-	for j, tau := range rt.Taus {
-		cv := render.Curve{Centile: 100 * tau, Ages: ages, Values: make([]float64, len(ages))}
-		for i := range ages {
-			cv.Values[i] = rt.Values[i][j]
-		}
-		c.Curves = append(c.Curves, cv)
-	}
-	fig, err := render.CentileChart(c, render.WithTitle(fmt.Sprintf("%s: the cohort's own 3rd, 50th and 97th centiles over the reference", cohort)))
-	if err != nil {
-		return nil, err
-	}
-	p := fig.Panels[0][0]
-	for j := range ot.Taus {
-		xy := make(plotter.XYs, len(ages))
-		for i := range ages {
-			xy[i].X, xy[i].Y = ages[i], ot.Values[i][j]
-		}
-		ln, err := plotter.NewLine(xy)
-		if err != nil {
-			return nil, err
-		}
-		ln.LineStyle = draw.LineStyle{Color: color.Gray{Y: 0x20}, Width: vg.Length(1.2), Dashes: []vg.Length{vg.Points(4), vg.Points(2.5)}}
-		p.Add(ln)
-		if j == 0 {
-			p.Legend.Add("cohort's own 3rd, 50th, 97th (fitted)", ln)
-		}
-	}
-	return fig, nil
+	c.Data = &render.Points{Ages: own.Age, Values: own.Value}
+	c.Overlay = &render.Overlay{Label: "cohort's own 3rd, 50th, 97th (fitted)", Curves: mine}
+	return render.CentileChart(c, render.WithTitle(fmt.Sprintf("The cohort's own 3rd, 50th and 97th centiles over the reference — %s, %s", cohort, st.Name)))
 }

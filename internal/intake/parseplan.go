@@ -36,6 +36,9 @@ type rawPlan struct {
 	Plausible rawPlausible `toml:"plausible"`
 	Table     rawTable     `toml:"table"`
 	Output    rawOutput    `toml:"output"`
+
+	Conditional rawConditional `toml:"conditional"`
+	Covariates  rawCovariates  `toml:"covariates"`
 }
 
 type rawInput struct {
@@ -129,6 +132,8 @@ func ParsePlan(data []byte, name, dir string) (*Plan, error) {
 		return nil, errAt(name, 0, ErrSyntax, "%v", err)
 	}
 	d := &planDecoder{name: name, lines: keyLines(text)}
+	_, d.hasConditional = tree["conditional"]
+	_, d.hasCovariates = tree["covariates"]
 	for tn, v := range tree {
 		if _, isTable := v.(map[string]any); planKeys[tn] && !isTable {
 			d.fail(tn, ErrType, "%s must be a table like [%s], not %s", tn, tn, describe(v))
@@ -168,6 +173,9 @@ type planDecoder struct {
 	name  string
 	lines map[string]int
 	errs  []*Error
+
+	hasConditional bool // the plan has a [conditional] table
+	hasCovariates  bool // the plan has a [covariates] table
 }
 
 func (d *planDecoder) fail(key string, sentinel error, format string, args ...any) {

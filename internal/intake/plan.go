@@ -19,6 +19,9 @@ type Plan struct {
 	Plausible Plausible
 	Table     AgeGrid
 	Output    Output
+
+	Conditional *Conditional // nil when the plan has no [conditional] table
+	Covariates  *Covariates  // nil when the plan has no [covariates] table
 }
 
 // Input is the [input] table: where the data are and how to read them.

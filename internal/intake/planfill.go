@@ -130,6 +130,8 @@ func (d *planDecoder) plan(rp *rawPlan) *Plan {
 	p.Plausible = d.plausible(rp, &p.Measure)
 	p.Table = d.grid(rp)
 	p.Output = d.output(rp)
+	p.Conditional = d.conditional(&rp.Conditional, d.hasConditional, in)
+	p.Covariates = d.covariates(&rp.Covariates, d.hasCovariates, in)
 	return p
 }
 

@@ -38,6 +38,7 @@ type Row struct {
 	Z, Centile float64  // NaN when not scored
 	Flag       string   // reason not scored, or the score's remarks
 	OK         bool     // scored
+	Cond       *Cond    // conditional score; nil when not asked for (AddChanges)
 }
 
 // ErrNoStratum reports a file without a stratum column scored against a
@@ -126,11 +127,13 @@ func StrataNames(r *curve.Reference) string {
 // Columns are the columns added to the file.
 var Columns = []string{"z", "centile", "flag"}
 
-// WriteCSV echoes the rows under header with Columns added. A row with
+// WriteCSV echoes the rows under header with Columns added (and
+// CondColumns before flag when the rows carry conditional scores). A row with
 // fewer cells than the header (one whose quoting could not be read) is
 // padded with empty cells, so that the added columns line up.
 func WriteCSV(w io.Writer, header []string, rows []Row) error {
-	cw := NewCSVWriter(w, header)
+	cond := len(rows) > 0 && rows[0].Cond != nil
+	cw := NewCSVWriter(w, header, cond)
 	for _, o := range rows {
 		cw.Write(o)
 	}
@@ -141,14 +144,19 @@ func WriteCSV(w io.Writer, header []string, rows []Row) error {
 type CSVWriter struct {
 	cw    *csv.Writer
 	nf    int
+	cond  bool
 	cells []string
 }
 
 // NewCSVWriter returns a writer of scored rows under header (with Columns
-// added), which it writes first.
-func NewCSVWriter(w io.Writer, header []string) *CSVWriter {
-	c := &CSVWriter{cw: csv.NewWriter(w), nf: len(header)}
-	c.cw.Write(append(slices.Clone(header), Columns...))
+// added, and CondColumns before flag when cond), which it writes first.
+func NewCSVWriter(w io.Writer, header []string, cond bool) *CSVWriter {
+	c := &CSVWriter{cw: csv.NewWriter(w), nf: len(header), cond: cond}
+	head := append(slices.Clone(header), Columns[:2]...)
+	if cond {
+		head = append(head, CondColumns...)
+	}
+	c.cw.Write(append(head, Columns[2:]...))
 	return c
 }
 
@@ -158,7 +166,15 @@ func (c *CSVWriter) Write(o Row) {
 	for len(c.cells) < c.nf {
 		c.cells = append(c.cells, "")
 	}
-	c.cw.Write(append(c.cells, ZText(o.Z), CentileText(o.Centile), o.Flag))
+	c.cells = append(c.cells, ZText(o.Z), CentileText(o.Centile))
+	if c.cond {
+		z, cen := math.NaN(), math.NaN()
+		if o.Cond != nil {
+			z, cen = o.Cond.Z, o.Cond.Centile
+		}
+		c.cells = append(c.cells, ZText(z), CentileText(cen))
+	}
+	c.cw.Write(append(c.cells, o.Flag))
 }
 
 // Flush writes what is buffered and returns the first write error.
@@ -175,6 +191,8 @@ func WriteJSON(w io.Writer, r *curve.Reference, header []string, rows []Row) err
 		Fields  []string `json:"fields"`
 		Z       *float64 `json:"z"`
 		Centile *float64 `json:"centile"`
+		CondZ   *float64 `json:"cond_z,omitempty"`
+		CondC   *float64 `json:"cond_centile,omitempty"`
 		Flag    string   `json:"flag"`
 	}
 	doc := struct {
@@ -193,6 +211,10 @@ func WriteJSON(w io.Writer, r *curve.Reference, header []string, rows []Row) err
 		if o.OK {
 			z, c := round(o.Z, 3), round(o.Centile, 4)
 			x.Z, x.Centile = &z, &c
+		}
+		if o.Cond != nil && !math.IsNaN(o.Cond.Z) {
+			z, c := round(o.Cond.Z, 3), round(o.Cond.Centile, 4)
+			x.CondZ, x.CondC = &z, &c
 		}
 		doc.Rows = append(doc.Rows, x)
 	}
@@ -214,15 +236,22 @@ func ZText(z float64) string {
 	return strconv.FormatFloat(z, 'f', 3, 64)
 }
 
-// CentileText formats a centile in percent to two decimals, with more
-// digits in the far tails where two decimals would read 0.00 or 100.00;
-// NaN is "".
+// CentileText formats a centile in percent to two decimals, with more in
+// the tails: below 1 or above 99 two more than it takes to tell the
+// centile from 0 or 100 (z = 4.9 is "99.9999521", never "100"); NaN is "".
+// A centile that is 0 or 100 in double precision (|z| beyond about 8)
+// prints so.
 func CentileText(c float64) string {
-	switch {
-	case math.IsNaN(c):
+	if math.IsNaN(c) {
 		return ""
-	case c < 0.01 || c > 99.99:
-		return strconv.FormatFloat(c, 'g', 6, 64)
 	}
-	return strconv.FormatFloat(c, 'f', 2, 64)
+	dec := 2
+	if tail := min(c, 100-c); tail > 0 && tail < 1 {
+		dec = min(int(math.Ceil(-math.Log10(tail)))+2, maxCentileDecimals)
+	}
+	return strconv.FormatFloat(c, 'f', dec, 64)
 }
+
+// maxCentileDecimals caps the decimals of a tail centile: 100 - c carries
+// about 14 significant digits of a centile near 100.
+const maxCentileDecimals = 14

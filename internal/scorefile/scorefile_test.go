@@ -9,21 +9,23 @@ import (
 	"strings"
 	"testing"
 
+	"gonum.org/v1/gonum/stat/distuv"
+
 	"growband/curve"
 	"growband/internal/intake"
 )
 
-// whoBirth holds WHO Child Growth Standards 2006 weight-for-age L, M, S at
+// publishedBirthLMS holds WHO Child Growth Standards 2006 weight-for-age L, M, S at
 // birth and day 1 for boys (0.3487, 3.3464, 0.14602; 0.3127, 3.3174,
 // 0.14600) and girls (0.3809, 3.2322, 0.14171; 0.3470, 3.1957, 0.14173),
 // from memory. Only the birth rows enter expected values.
-const whoBirth = "# age_unit = days\n# measure = weight\n# unit = kg\nsex,age,L,M,S\n" +
+const publishedBirthLMS = "# age_unit = days\n# measure = weight\n# unit = kg\nsex,age,L,M,S\n" +
 	"male,0,0.3487,3.3464,0.14602\nmale,1,0.3127,3.3174,0.14600\n" +
 	"female,0,0.3809,3.2322,0.14171\nfemale,1,0.3470,3.1957,0.14173\n"
 
 func testRef(t *testing.T) *curve.Reference {
 	t.Helper()
-	r, err := curve.LoadLMSTable(strings.NewReader(whoBirth), "who.csv", nil)
+	r, err := curve.LoadLMSTable(strings.NewReader(publishedBirthLMS), "lms-birth.csv", nil)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -137,5 +139,19 @@ func TestWriteJSON(t *testing.T) {
 	}
 	if doc.Rows[1].Z != nil || doc.Rows[1].Flag == "" {
 		t.Errorf("unscored row %+v", doc.Rows[1])
+	}
+}
+
+func TestCentileTextTails(t *testing.T) {
+	// Centiles of z = 4.9 and -4.9: 100 Phi(z) and its complement (gonum
+	// v0.17.0 distuv.UnitNormal); each prints distinct from 100 and 0.
+	for _, c := range []struct {
+		z    float64
+		want string
+	}{{4.9, "99.9999521"}, {-4.9, "0.0000479"}, {0, "50.00"}, {-3, "0.135"}, {3.09, "99.900"}, {2.5, "99.379"}} {
+		got := CentileText(100 * distuv.UnitNormal.CDF(c.z))
+		if got != c.want {
+			t.Errorf("z %g: %q, want %q", c.z, got, c.want)
+		}
 	}
 }
