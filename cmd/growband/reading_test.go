@@ -344,3 +344,30 @@ func TestParquetBuild(t *testing.T) {
 		t.Fatalf("references differ: input hash %s and %s", a.InputHash, b.InputHash)
 	}
 }
+
+// TestAgeColumnWins: a file with an age column and date columns that
+// disagree is read by its age column by score and compare alike, unless
+// the date columns are named.
+func TestAgeColumnWins(t *testing.T) {
+	f := builtFixture(t)
+	dir := t.TempDir()
+	in := filepath.Join(dir, "both.csv")
+	// The age column says 12 months; the dates say 3.
+	os.WriteFile(in, []byte("sex,age,birth,measured,weight\nF,12,2020-01-01,2020-04-01,9.5\n"), 0o644)
+	zOf := func(args ...string) string {
+		out := mustGB(t, dir, append([]string{"score", "--ref", f.ref(), "--in", in, "--stratum-codes", "F=female"}, args...)...)
+		h, r := readCSV(t, out)
+		return r[0][column(t, h, "z")]
+	}
+	byAge, byNamedAge, byDates := zOf(), zOf("--age-column", "age"), zOf("--birth-column", "birth", "--visit-column", "measured")
+	if byAge != byNamedAge || byAge == byDates {
+		t.Fatalf("z by usual names %s, by --age-column %s, by dates %s: want the age column to win", byAge, byNamedAge, byDates)
+	}
+	rows := filepath.Join(dir, "rows.csv")
+	mustGB(t, dir, "compare", "--ref", f.ref(), "--in", in, "--stratum-codes", "F=female", "--rows", rows)
+	b, _ := os.ReadFile(rows)
+	h, r := readCSV(t, string(b))
+	if got := r[0][column(t, h, "age")]; got != "12" {
+		t.Fatalf("compare read age %s, want 12 (the age column)", got)
+	}
+}
