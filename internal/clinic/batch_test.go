@@ -81,10 +81,12 @@ func TestBatchJobLimit(t *testing.T) {
 // peak resident set (VmHWM of /proc/self/status) rose above the resident
 // set before the request. The server holds the body once and streams the
 // rows; the bound allows the body, the garbage collector's headroom of one
-// more heap (GOGC=100) and the runtime's slack.
+// more heap (GOGC=100) and the runtime's slack, which grows when the
+// collector is starved of CPU: measured 3.7 to 6.3 times the body on a
+// loaded 2-core machine, against about 100 times before streaming.
 const (
 	memRows        = 1000000
-	memGrowthLimit = 5.0 // peak growth over the body's size: measured 3.7 here
+	memGrowthLimit = 8.0 // peak growth over the body's size
 	memChildEnv    = "GROWBAND_BATCH_MEMORY_CHILD"
 )
 
