@@ -235,6 +235,14 @@ func TestXLSXRoundTrip(t *testing.T) {
 		t.Fatal(err)
 	}
 	sameRows(t, "xlsx", want, got)
+	path := filepath.Join(t.TempDir(), "survey.xlsx")
+	if err := os.WriteFile(path, data, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if got, err = ReadFile(path, &s); err != nil {
+		t.Fatal(err)
+	}
+	sameRows(t, "xlsx file", want, got)
 
 	// Dates stored as date cells give the same ages as the text dates.
 	ds := s
