@@ -6,38 +6,76 @@ import (
 	"math"
 	"math/rand/v2"
 	"slices"
+	"sort"
 	"sync"
 	"sync/atomic"
+
+	"growband/curve/solver"
+	"growband/spline"
 )
 
-// Bootstrap bands.
+// Band is a bootstrap pointwise 95% interval for one chart centile on an age
+// grid, with the trust check |bias|/SE.
 //
 // Each replicate draws, with replacement, as many whole subjects as the
 // stratum has (when Data.Subject is given, so that the dependence between a
 // child's repeated measurements is kept) or as many rows (otherwise), and
-// refits the chart centiles with the point estimate's knots and lambda: the
-// median first, then outward with the same non-crossing mode. A row drawn m
-// times enters with weight m*w instead of being copied. The knots and lambda
-// are held fixed, so the bands show the sampling variation of the curves
-// given the chosen smoothness, not that of the choice. The interval at each
-// band age is the percentile interval (2.5% and 97.5% quantiles of the
-// replicate curves, Hyndman & Fan definition 7) of Efron & Tibshirani
-// (1993).
+// refits each chart centile on its own, without the roughness penalty and,
+// when the knots were chosen automatically, with bandKnotFactor*(k+1)
+// interior knots where the estimate has k. A row drawn m times enters with
+// weight m*w instead of being copied. The interval at each band age is the
+// normal bootstrap interval (Efron & Tibshirani 1993, section 13.2)
+//
+//	c(age) ± 1.96 * sd*(age)
+//
+// with c the same richer unpenalised fit on all rows and sd* the standard
+// deviation of the replicate curves.
+//
+// Why so, and not the percentile interval of replicates of the estimate
+// itself: the bootstrap reproduces an estimate's variance but not its
+// smoothing bias, and a penalised fit with few knots is biased where growth
+// bends. A user measured 88.5% coverage of the true centile; in
+// simulations of this package (Box–Cox truth lmsTruth, n = 1000, 40 data
+// sets, auto smoothness) percentile bands of penalised replicates covered
+// 89%, of unpenalised ones 90%, and the bands above 93.4% (a square-root
+// growth truth: 90.5%, 91.7% and 93.5%). Undersmoothing, a fit for the
+// bands with less bias than the estimate, is the classical remedy (Hall
+// 1992). The remaining gap of the percentile interval came from its width:
+// replicate quantile-regression curves are peaked with long tails, so
+// their 2.5–97.5% range was about 10% narrower than 3.92 standard
+// deviations while the estimator's sampling spread across data sets
+// matched the bootstrap standard deviation (measured: 0.064 against
+// 0.0655). TestBootstrapCoverage keeps the coverage within 95 ± 3%.
+//
+// Each replicate fit is exact and cheap: it starts from the full data's
+// fit and pools the rows far from it (see bootSolve); 200 replicates at
+// n = 20,000 run about ten times faster than refitting the whole chain
+// (BenchmarkBootstrap200x2e4).
 //
 // Replicate r uses its own PCG stream (math/rand/v2) seeded from
 // Settings.Seed, the stratum name and r, so the bands do not depend on the
 // number of workers or the order in which replicates finish.
 //
-// The percentile interval presumes the bootstrap distribution is centred on
-// the estimate. Band.BiasToSE reports |mean of replicates - estimate| /
-// (replicate SD) per age, and Band.Unstable marks a band where it exceeds
-// BiasSELimit somewhere.
+// BiasToSE reports |mean of replicates - c| / sd* per age, and Unstable
+// marks a band where it exceeds BiasSELimit somewhere: the replicates are
+// then not centred where the band is, a sign that the fit there rests on
+// few or unusual rows and that the band is less trustworthy than its width
+// suggests.
 //
 // References:
 //   - Efron B, Tibshirani R J (1993). An Introduction to the Bootstrap.
 //     Chapman & Hall, New York.
-//   - Hyndman R J, Fan Y (1996). Sample quantiles in statistical packages.
-//     The American Statistician 50, 361–365.
+//   - Hall P (1992). Effect of bias estimation on coverage accuracy of
+//     bootstrap confidence intervals for a probability density. Annals of
+//     Statistics 20, 675–694 (from memory).
+type Band struct {
+	Tau      float64   `json:"tau"`
+	Ages     []float64 `json:"ages"`
+	Lo       []float64 `json:"lo"`
+	Hi       []float64 `json:"hi"`
+	BiasToSE []float64 `json:"bias_to_se"`
+	Unstable bool      `json:"unstable"` // some |bias|/SE exceeds BiasSELimit
+}
 
 // BiasSELimit is the |bias|/SE above which a bootstrap band is marked
 // Unstable. Efron & Tibshirani (1993, section 10.6, from memory) treat a bias
@@ -56,9 +94,14 @@ const maxFailShare = 0.1
 // bandLevel is the two-sided level of the bands.
 const bandLevel = 0.95
 
+// bandZ is Phi^-1((1 + bandLevel)/2) = Phi^-1(0.975) (normal quantile
+// function, to the digits given).
+const bandZ = 1.959963984540054
+
 // bootstrapBands computes the chart bands of st, fitted on r with model m.
-func bootstrapBands(pl *pool, r *rows, m *model, st *Stratum, c *config) ([]Band, error) {
+func bootstrapBands(pl *pool, r *rows, m0 *model, st *Stratum, c *config) ([]Band, error) {
 	n := len(r.y)
+	m := bandModel(r, m0, c)
 	ages := make([]float64, c.bandPoints)
 	tg := make([]float64, c.bandPoints)
 	for a := range ages {
@@ -84,15 +127,19 @@ func bootstrapBands(pl *pool, r *rows, m *model, st *Stratum, c *config) ([]Band
 		return v
 	}
 
-	taus := slices.Clone(st.Chart)
-	if !slices.Contains(taus, 0.5) {
-		taus = append(taus, 0.5)
-		slices.Sort(taus)
+	// Replicates refit each chart centile on its own, unpenalised: the
+	// guesses are the full data's unpenalised fits, the spread of each row
+	// the point estimate's interquartile range there.
+	taus := st.Chart
+	guess := make([][]float64, len(taus))
+	for k, tau := range taus {
+		sol, err := pl.one(&solver.Problem{Y: r.y, X: m.x, W: r.w, Tau: tau})
+		if err != nil {
+			return nil, fmt.Errorf("unpenalised fit at tau %g: %w", tau, err)
+		}
+		guess[k] = sol.Coef
 	}
-	chartAt := make([]int, len(st.Chart)) // index of each chart tau in taus
-	for k, tau := range st.Chart {
-		chartAt[k] = slices.Index(taus, tau)
-	}
+	scale := rowSpread(r, m0, st)
 
 	h := fnv.New64a()
 	h.Write([]byte(r.name))
@@ -136,13 +183,25 @@ func bootstrapBands(pl *pool, r *rows, m *model, st *Stratum, c *config) ([]Band
 						w = append(w, r.w[i]*float64(k))
 					}
 				}
-				coef, err := fitGridOn(pl, subset(m.x, idx), m.pen, y, w, st.Smoothness.Lambda, taus, c.nonCross, nil)
+				xs := subset(m.x, idx)
+				sc := make([]float64, len(idx))
+				for j, i := range idx {
+					sc[j] = scale[i]
+				}
+				coef := make([][]float64, len(taus))
+				var err error
+				for k, tau := range taus {
+					if coef[k], err = bootSolve(pl, xs, y, w, tau, guess[k], sc); err != nil {
+						err = fmt.Errorf("tau %g: %w", tau, err)
+						break
+					}
+				}
 				if err != nil {
 					errs[rep] = err
 				} else {
 					v := make([][]float64, len(st.Chart))
-					for k, at := range chartAt {
-						v[k] = values(coef[at])
+					for k := range taus {
+						v[k] = values(coef[k])
 					}
 					reps[rep] = v
 				}
@@ -173,8 +232,7 @@ func bootstrapBands(pl *pool, r *rows, m *model, st *Stratum, c *config) ([]Band
 	bands := make([]Band, len(st.Chart))
 	col := make([]float64, len(good))
 	for k, tau := range st.Chart {
-		ti := slices.Index(st.Taus, tau)
-		est := values(st.Coef[ti])
+		est := values(guess[k])
 		bd := Band{
 			Tau:      tau,
 			Ages:     slices.Clone(ages),
@@ -186,10 +244,8 @@ func bootstrapBands(pl *pool, r *rows, m *model, st *Stratum, c *config) ([]Band
 			for g, v := range good {
 				col[g] = v[k][a]
 			}
-			slices.Sort(col)
-			bd.Lo[a] = quantile7(col, (1-bandLevel)/2)
-			bd.Hi[a] = quantile7(col, 1-(1-bandLevel)/2)
 			mean, sd := meanSD(col)
+			bd.Lo[a], bd.Hi[a] = est[a]-bandZ*sd, est[a]+bandZ*sd
 			bd.BiasToSE[a] = biasToSE(mean-est[a], sd)
 			if bd.BiasToSE[a] > BiasSELimit {
 				bd.Unstable = true
@@ -198,16 +254,6 @@ func bootstrapBands(pl *pool, r *rows, m *model, st *Stratum, c *config) ([]Band
 		bands[k] = bd
 	}
 	return bands, nil
-}
-
-// quantile7 is definition 7 of Hyndman & Fan (1996) on sorted s.
-func quantile7(s []float64, p float64) float64 {
-	h := float64(len(s)-1) * p
-	f := int(math.Floor(h))
-	if f+1 >= len(s) {
-		return s[len(s)-1]
-	}
-	return s[f] + (h-float64(f))*(s[f+1]-s[f])
 }
 
 func meanSD(s []float64) (mean, sd float64) {
@@ -232,4 +278,74 @@ func biasToSE(bias, sd float64) float64 {
 		return 0
 	}
 	return math.MaxFloat64
+}
+
+// At returns the band's interval at age, linear between the band's ages;
+// ok is false for an age outside them (or NaN).
+func (b *Band) At(age float64) (lo, hi float64, ok bool) {
+	n := len(b.Ages)
+	if n == 0 || !(age >= b.Ages[0] && age <= b.Ages[n-1]) || len(b.Lo) != n || len(b.Hi) != n {
+		return 0, 0, false
+	}
+	i := sort.SearchFloat64s(b.Ages, age)
+	if b.Ages[i] == age || i == 0 {
+		return b.Lo[i], b.Hi[i], true
+	}
+	f := (age - b.Ages[i-1]) / (b.Ages[i] - b.Ages[i-1])
+	return b.Lo[i-1] + f*(b.Lo[i]-b.Lo[i-1]), b.Hi[i-1] + f*(b.Hi[i]-b.Hi[i-1]), true
+}
+
+// rowSpread returns each row's interquartile range under the fitted curves
+// of st (the 0.25 and 0.75 grid taus), with non-positive ones replaced by
+// the median positive one (or 1 when there is none).
+func rowSpread(r *rows, m *model, st *Stratum) []float64 {
+	q25, q75 := slices.Index(st.Taus, 0.25), slices.Index(st.Taus, 0.75)
+	out := make([]float64, len(r.y))
+	var pos []float64
+	for i := range out {
+		if q25 >= 0 && q75 >= 0 {
+			out[i] = m.x.Dot(i, st.Coef[q75]) - m.x.Dot(i, st.Coef[q25])
+		}
+		if out[i] > 0 {
+			pos = append(pos, out[i])
+		}
+	}
+	fill := 1.0
+	if len(pos) > 0 {
+		slices.Sort(pos)
+		fill = pos[len(pos)/2]
+	}
+	for i, v := range out {
+		if !(v > 0) {
+			out[i] = fill
+		}
+	}
+	return out
+}
+
+// bandKnotFactor: the bands' fits use bandKnotFactor*(k+1) interior knots
+// where the point estimate chose k (undersmoothing, see Band).
+const bandKnotFactor = 2
+
+// bandModel is the model of the bands' fits: with automatically chosen
+// knots, the point estimate's knot count k raised to bandKnotFactor*(k+1)
+// (at quantiles of T(age)) when the rows allow it (rowsPerCoef per
+// coefficient); knots the settings fix are kept.
+func bandModel(r *rows, m *model, c *config) *model {
+	if c.knots != 0 || c.knotT != nil {
+		return m
+	}
+	count := bandKnotFactor * (len(m.interior) + 1)
+	if (count+c.degree+1)*rowsPerCoef > len(r.t) {
+		return m
+	}
+	kn, err := spline.QuantileKnots(r.t, count)
+	if err != nil {
+		return m
+	}
+	mb, err := newModel(r, kn, c.degree, c.order)
+	if err != nil {
+		return m
+	}
+	return mb
 }

@@ -36,6 +36,32 @@ const (
 	CriterionCV    = "cv"    // K-fold cross-validated check loss
 	CriterionFixed = "fixed" // recorded when nothing was chosen
 
+)
+
+// Non-crossing modes (Settings.NonCross). A curve is
+// Q_tau(t) = sum_j B_j(t) b_tau,j with B-spline functions B_j >= 0 that sum
+// to one at every t, so coefficients ordered across tau (b_tau <= b_tau'
+// componentwise) give curves ordered at every age:
+//
+//	Q_tau'(t) - Q_tau(t) = sum_j B_j(t) (b_tau',j - b_tau,j) >= 0.
+//
+// The condition is sufficient, not necessary, and survives rounding.
+// NonCrossConstrain fits the median, then each tau outward constrained by
+// its inner neighbour (b_tau >= b_prev above the median, <= below): the
+// stepwise scheme of Wu & Liu (2009) with this sufficient condition as the
+// constraint set, always feasible, binding only where unconstrained fits
+// would be out of order. NonCrossRearrange fits every tau unconstrained and
+// sorts each coefficient index across tau, the monotone rearrangement of
+// Chernozhukov, Fernández-Val & Galichon (2010) applied to each coefficient
+// function (it equals their value rearrangement at the two end ages).
+//
+// References:
+//   - Wu Y, Liu Y (2009). Stepwise multiple quantile regression estimation
+//     using non-crossing constraints. Statistics and Its Interface 2,
+//     299–310 (from memory).
+//   - Chernozhukov V, Fernández-Val I, Galichon A (2010). Quantile and
+//     probability curves without crossing. Econometrica 78, 1093–1125.
+const (
 	NonCrossConstrain = "constrain" // stepwise constraints outward from the median
 	NonCrossRearrange = "rearrange" // unconstrained fits, coefficients sorted across tau
 )
@@ -160,8 +186,18 @@ type Settings struct {
 	// means silence.
 	Progress io.Writer
 
+	// AgeRange, when AgeRange[1] > AgeRange[0], is the reference's stated
+	// age range in age units: the boundary knots are clamped there rather
+	// than at the youngest and oldest rows, so the curves hold to both ends
+	// and a child at either end is scored. Rows outside it are an error of
+	// Fit (Build excludes them with a reason). The zero value means the
+	// range of each stratum's rows.
+	AgeRange [2]float64
+
 	// Measure, Unit and AgeUnit are copied into the Reference.
 	Measure, Unit, AgeUnit string
+	// Created is the Reference's creation time; the zero value means now.
+	Created time.Time
 }
 
 // config is Settings resolved: defaults filled in and choices checked.
@@ -172,7 +208,9 @@ type config struct {
 	knots      int       // NoKnots, 0 (auto) or a count
 	knotT      []float64 // explicit interior knots on the T scale, or nil
 	knotAges   []float64
-	penalty    string // PenaltyAuto, PenaltyNone or PenaltyFixed
+	ageRange   *[2]float64 // stated age range, or nil
+	tRange     [2]float64  // T of the stated range
+	penalty    string      // PenaltyAuto, PenaltyNone or PenaltyFixed
 	lambda     float64
 	order      int
 	criterion  string
@@ -186,7 +224,8 @@ type config struct {
 	seed       uint64
 	workers    int
 	prog       *progress
-	selectRows int // SelectRows; tests lower it
+	chosen     map[string]*choice // smoothness chosen beforehand, by stratum
+	selectRows int                // SelectRows; tests lower it
 }
 
 // maxDegree bounds Settings.Degree; higher degrees buy nothing for growth
@@ -230,10 +269,27 @@ func (s *Settings) resolve() (*config, error) {
 		c.degree = s.Degree
 	}
 
+	if s.AgeScale.Kind == ScaleAuto {
+		return nil, fmt.Errorf("%w: the automatic age scale is chosen by Build, not Fit", ErrAgeScale)
+	}
 	if err := s.AgeScale.validate(); err != nil {
 		return nil, err
 	}
 	c.scale = s.AgeScale.normal()
+
+	if r := s.AgeRange; r != [2]float64{} {
+		if !(r[1] > r[0]) || math.IsInf(r[0], 0) || math.IsInf(r[1], 0) {
+			return bad("age range [%v, %v] needs finite ends with min < max", r[0], r[1])
+		}
+		for k, a := range r {
+			t, err := c.scale.Apply(a)
+			if err != nil {
+				return nil, fmt.Errorf("%w: age range end %v: %w", ErrSettings, a, err)
+			}
+			c.tRange[k] = t
+		}
+		c.ageRange = &r
+	}
 
 	if s.Knots < NoKnots {
 		return bad("knot count %d", s.Knots)
@@ -394,10 +450,17 @@ func Fit(d *Data, s *Settings) (*Reference, error) {
 	if err != nil {
 		return nil, err
 	}
+	return fitResolved(d, s, c, nil)
+}
+
+// fitResolved is Fit with resolved settings; chosen, when not nil, holds
+// the smoothness already chosen for each stratum by name.
+func fitResolved(d *Data, s *Settings, c *config, chosen map[string]*choice) (*Reference, error) {
 	groups, hash, err := prepare(d, c)
 	if err != nil {
 		return nil, err
 	}
+	c.chosen = chosen
 	strata, err := fitStrata(groups, c)
 	if err != nil {
 		return nil, err
@@ -414,6 +477,9 @@ func Fit(d *Data, s *Settings) (*Reference, error) {
 	}
 	if s != nil {
 		ref.Measure, ref.Unit, ref.AgeUnit = s.Measure, s.Unit, s.AgeUnit
+		if !s.Created.IsZero() {
+			ref.Created = s.Created.UTC().Truncate(time.Second)
+		}
 	}
 	return ref, nil
 }
@@ -421,8 +487,11 @@ func Fit(d *Data, s *Settings) (*Reference, error) {
 // rows is one stratum's data sorted by transformed age.
 type rows struct {
 	name  string
-	age   []float64 // ages, increasing
-	t     []float64 // T(age), increasing
+	src   []int      // row index in the input Data of each row
+	lo    [2]float64 // age and T(age) where the knots are clamped below
+	hi    [2]float64 // and above: the stated range or the rows' range
+	age   []float64  // ages, increasing
+	t     []float64  // T(age), increasing; age itself for the identity scale
 	y     []float64
 	w     []float64
 	subj  []int // subject index per row in 0..nsubj-1, or nil
@@ -472,8 +541,14 @@ func prepare(d *Data, c *config) ([]*rows, string, error) {
 		}
 	}
 
+	// Rows are grouped in two passes, a count and a fill, so that each
+	// group's index list is allocated once at its size: at registry scale
+	// the doubling of appended lists would cost more memory than the rows.
 	t := make([]float64, n)
-	byName := map[string][]int{}
+	gid := make([]int32, n)
+	ids := map[string]int32{}
+	var names []string
+	var counts []int
 	for i := range n {
 		a, v := d.Age[i], d.Value[i]
 		if math.IsNaN(a) || math.IsInf(a, 0) {
@@ -491,56 +566,88 @@ func prepare(d *Data, c *config) ([]*rows, string, error) {
 		if err != nil {
 			return nil, "", fmt.Errorf("%w: row %d: %w", ErrData, i+1, err)
 		}
+		if c.ageRange != nil && (a < c.ageRange[0] || a > c.ageRange[1]) {
+			return nil, "", fmt.Errorf("%w: row %d: age %v outside the stated age range [%v, %v]", ErrData, i+1, a, c.ageRange[0], c.ageRange[1])
+		}
 		t[i] = ti
 		name := ""
 		if d.Stratum != nil {
 			name = d.Stratum[i]
 		}
-		byName[name] = append(byName[name], i)
+		g, ok := ids[name]
+		if !ok {
+			g = int32(len(names))
+			ids[name] = g
+			names = append(names, name)
+			counts = append(counts, 0)
+		}
+		gid[i] = g
+		counts[g]++
 	}
+	byGroup := make([][]int, len(names))
+	for g, k := range counts {
+		byGroup[g] = make([]int, 0, k)
+	}
+	for i, g := range gid {
+		byGroup[g] = append(byGroup[g], i)
+	}
+	gid = nil
 
-	names := make([]string, 0, len(byName))
-	for name := range byName {
-		names = append(names, name)
+	order := make([]int, len(names))
+	for g := range order {
+		order[g] = g
 	}
-	slices.Sort(names)
+	slices.SortFunc(order, func(a, b int) int { return cmp.Compare(names[a], names[b]) })
+	// With the identity age scale T(age) = age, and one slice serves both.
+	identity := c.scale.Kind == "" || c.scale.Kind == ScaleIdentity
 	groups := make([]*rows, len(names))
-	for g, name := range names {
-		idx := byName[name]
+	for pos, g := range order {
+		name, idx := names[g], byGroup[g]
+		byGroup[g] = nil
 		// Stable order by age: ties keep input order, so the fit does not
 		// depend on map iteration or sort internals.
 		slices.SortStableFunc(idx, func(i, j int) int { return cmp.Compare(t[i], t[j]) })
 		r := &rows{
 			name: name,
+			src:  idx,
 			age:  make([]float64, len(idx)),
-			t:    make([]float64, len(idx)),
 			y:    make([]float64, len(idx)),
 			w:    make([]float64, len(idx)),
 		}
-		var ids map[string]int
+		r.t = r.age
+		if !identity {
+			r.t = make([]float64, len(idx))
+		}
+		var subj map[string]int
 		if d.Subject != nil {
 			r.subj = make([]int, len(idx))
-			ids = map[string]int{}
+			subj = map[string]int{}
 		}
 		for k, i := range idx {
-			r.age[k], r.t[k], r.y[k], r.w[k] = d.Age[i], t[i], d.Value[i], 1
+			r.age[k], r.y[k], r.w[k] = d.Age[i], d.Value[i], 1
+			r.t[k] = t[i]
 			if d.Weight != nil {
 				r.w[k] = d.Weight[i]
 			}
-			if ids != nil {
-				id, ok := ids[d.Subject[i]]
+			if subj != nil {
+				id, ok := subj[d.Subject[i]]
 				if !ok {
-					id = len(ids)
-					ids[d.Subject[i]] = id
+					id = len(subj)
+					subj[d.Subject[i]] = id
 				}
 				r.subj[k] = id
 			}
 		}
-		r.nsubj = len(ids)
+		r.nsubj = len(subj)
+		m := len(idx) - 1
+		r.lo, r.hi = [2]float64{r.age[0], r.t[0]}, [2]float64{r.age[m], r.t[m]}
+		if c.ageRange != nil {
+			r.lo, r.hi = [2]float64{c.ageRange[0], c.tRange[0]}, [2]float64{c.ageRange[1], c.tRange[1]}
+		}
 		if !(r.t[0] < r.t[len(idx)-1]) {
 			return nil, "", fmt.Errorf("%w: stratum %q: all %d ages are equal", ErrData, name, len(idx))
 		}
-		groups[g] = r
+		groups[pos] = r
 	}
 	return groups, inputHash(d), nil
 }

@@ -1,13 +1,18 @@
 package curve
 
 import (
+	"fmt"
 	"math"
 	"slices"
+	"sort"
+
+	"growband/curve/solver"
 )
 
-// Sample-size guard.
+// Flag records a sample-size guard decision: too few observations beyond the
+// centile Tau in the age window [AgeLo, AgeHi).
 //
-// A fitted centile tau at some age rests on the observations beyond it
+// The sample-size guard: a fitted centile tau at some age rests on the observations beyond it
 // nearby: in an age window holding n_w observations about
 // n_w * min(tau, 1-tau) are expected below (or above) the curve. When that
 // count is small the curve is set by a handful of points and its sampling
@@ -32,6 +37,13 @@ import (
 //
 // The grid taus 0.01, ..., 0.99 are always fitted, as the dense grid that
 // scoring interpolates; only chart centiles carry flags.
+type Flag struct {
+	Tau      float64 `json:"tau"`
+	AgeLo    float64 `json:"age_lo"`
+	AgeHi    float64 `json:"age_hi"`
+	Expected float64 `json:"expected"` // expected count beyond the centile
+	Action   string  `json:"action"`   // "flagged" or "dropped"
+}
 
 // extremeTaus are the grid taus beyond 0.01 and 0.99 that are fitted only
 // when the guard allows.
@@ -148,3 +160,221 @@ func tauGrid(chart []float64, windows []window, guardMin float64) ([]float64, []
 	}
 	return out, dropped
 }
+
+// Thresholds of the edge checks.
+const (
+	// MinGapShare: a gap between neighbouring centiles below a quarter of
+	// its normal-theory size is a tie. Sampling noise in the outer centiles
+	// of a few hundred rows moves a gap by well under half (measured on the
+	// demo survey's smallest age windows), a real tie makes it zero.
+	MinGapShare = 0.25
+	// EdgeSlopeZ: standard errors by which the curve's mean slope across an
+	// end window may differ from the data's straight-line slope (4: a
+	// departure that chance alone gives about once in 16,000 per check under
+	// normality, so a build of two strata and seven centiles, 28 checks,
+	// fails by chance about once in 600 builds).
+	EdgeSlopeZ = 4
+	// HookZ: standard errors by which the data slope must differ from zero
+	// before a curve turning the other way counts as a hook (common
+	// practice for a clearly signed effect).
+	HookZ = 3
+	// EdgeMinRows: fewest rows of an end window (common practice: about
+	// ten observations per parameter of a straight line, times the tail
+	// fraction; 40 rows put 1.2 rows beyond the 3rd centile).
+	EdgeMinRows = 40
+	// EdgeGridPoints: ages of the tie check.
+	EdgeGridPoints = 101
+)
+
+// normIQR is the interquartile range of the standard normal, 2*Phi^-1(0.75).
+const normIQR = 1.3489795003921634
+
+// EdgeProblem is one failed edge check.
+type EdgeProblem struct {
+	Stratum string
+	Kind    string  // "tie", "bend" or "hook"
+	Tau     float64 // the centile concerned (the lower of a tied pair)
+	Tau2    float64 // the upper centile of a tied pair; 0 otherwise
+	Age     float64 // where: the worst age of a tie, the end age otherwise
+	Detail  string
+}
+
+func (p EdgeProblem) String() string {
+	name := p.Stratum
+	if name == "" {
+		name = "(all)"
+	}
+	what := fmt.Sprintf("centile %.4g", 100*p.Tau)
+	if p.Kind == "tie" {
+		what = fmt.Sprintf("centiles %.4g and %.4g", 100*p.Tau, 100*p.Tau2)
+	}
+	return fmt.Sprintf("stratum %s, %s, age %.4g: %s: %s", name, what, p.Age, p.Kind, p.Detail)
+}
+
+// CheckEdges runs the edge checks on a fitted reference r against the
+// rows d it was fitted on and returns the problems found (nil when none).
+//
+// CheckEdges looks for what a smooth fit can do wrong where data thin out,
+// above all at the two ends of the age range, with three measurable tests
+// per stratum and chart centile:
+//
+//   - tie: at EdgeGridPoints equally spaced ages over the whole range, the
+//     gap between neighbouring chart centiles tau < tau' must be at least
+//     MinGapShare of the gap a normal distribution with the local spread
+//     would give, (Phi^-1(tau') - Phi^-1(tau)) * sigma(age), with sigma the
+//     fitted interquartile range over 1.349 (the normal IQR in SD units).
+//     Distinct centiles that (nearly) coincide fail it.
+//   - bend: in each end window (the rows in the outer tenth of the range of
+//     T(age), at least EdgeMinRows rows), the curve's mean slope across the
+//     window, Q(a_inner) - Q(a_end) over a_inner - a_end, must agree with
+//     the slope of a straight-line quantile regression of the window's rows
+//     on age at the same tau within EdgeSlopeZ standard errors. The
+//     standard error is Koenker's (2005) asymptotic one for iid errors,
+//     sqrt(tau(1-tau)) / f(Q_tau) / (sqrt(n_w) sd(age in window)), with the
+//     density at the quantile f = phi(Phi^-1(tau)) / sigma.
+//   - hook: the curve's slope at the end age itself has the opposite sign to
+//     the window's straight-line slope while that slope differs from zero by
+//     more than HookZ standard errors: the curve turns back where the data
+//     keep their direction.
+//
+// The checks are conservative on purpose: a problem fails a build unless
+// the user accepts it, so only gross departures count.
+// Strata of LMS tables are skipped. Errors wrap ErrData for data that do not
+// fit the reference.
+//
+// References:
+//   - Koenker R (2005). Quantile Regression. Cambridge University Press.
+func CheckEdges(r *Reference, d *Data) ([]EdgeProblem, error) {
+	c := &config{scale: r.AgeScale}
+	groups, _, err := prepare(d, c)
+	if err != nil {
+		return nil, err
+	}
+	var out []EdgeProblem
+	for _, g := range groups {
+		st, err := r.Stratum(g.name)
+		if err != nil {
+			return nil, fmt.Errorf("%w: %w", ErrData, err)
+		}
+		if st.LMS != nil {
+			continue
+		}
+		p, err := checkStratumEdges(r, st, g)
+		if err != nil {
+			return nil, fmt.Errorf("stratum %q: %w", g.name, err)
+		}
+		out = append(out, p...)
+	}
+	return out, nil
+}
+
+func checkStratumEdges(r *Reference, st *Stratum, g *rows) ([]EdgeProblem, error) {
+	var out []EdgeProblem
+	ages := make([]float64, EdgeGridPoints)
+	for i := range ages {
+		ages[i] = st.AgeMin + (st.AgeMax-st.AgeMin)*float64(i)/float64(EdgeGridPoints-1)
+	}
+	ages[len(ages)-1] = st.AgeMax
+	taus := append(slices.Clone(st.Chart), 0.25, 0.75)
+	tab, err := r.Table(st.Name, ages, taus)
+	if err != nil {
+		return nil, err
+	}
+	nc := len(st.Chart)
+	sigma := func(row []float64) float64 { return (row[nc+1] - row[nc]) / normIQR }
+	for k := 0; k+1 < nc; k++ {
+		lo, hi := st.Chart[k], st.Chart[k+1]
+		want := normZ(hi) - normZ(lo)
+		worst, at := math.Inf(1), 0.0
+		for i, row := range tab.Values {
+			share := (row[k+1] - row[k]) / (want * sigma(row))
+			if !(share >= worst) { // NaN (no spread) counts as worst
+				worst, at = share, ages[i]
+			}
+		}
+		if !(worst >= MinGapShare) {
+			out = append(out, EdgeProblem{Stratum: st.Name, Kind: "tie", Tau: lo, Tau2: hi, Age: at,
+				Detail: fmt.Sprintf("gap %.2g of the normal-theory gap (at least %g wanted)", worst, MinGapShare)})
+		}
+	}
+
+	n := len(g.t)
+	if n < 2*EdgeMinRows {
+		return out, nil
+	}
+	tlo, thi := g.t[0], g.t[n-1]
+	span := (thi - tlo) / DefaultGuardWindows
+	lower := max(sort.SearchFloat64s(g.t, tlo+span), EdgeMinRows)
+	upper := min(sort.SearchFloat64s(g.t, thi-span), n-EdgeMinRows)
+	for _, w := range []struct {
+		from, to int
+		end      float64
+	}{{0, lower, st.AgeMin}, {upper, n, st.AgeMax}} {
+		p, err := checkEnd(r, st, g, w.from, w.to, w.end)
+		if err != nil {
+			return nil, err
+		}
+		out = append(out, p...)
+	}
+	return out, nil
+}
+
+// checkEnd runs the bend and hook checks of one end window, rows from..to-1
+// of g, whose end of the range is the age end.
+func checkEnd(r *Reference, st *Stratum, g *rows, from, to int, end float64) ([]EdgeProblem, error) {
+	age, y, w := g.age[from:to], g.y[from:to], g.w[from:to]
+	mean, sd := meanSD(age)
+	if !(sd > 0) {
+		return nil, nil
+	}
+	x := &solver.Design{Cols: 2, Width: 2, First: make([]int, len(age)), Val: make([]float64, 0, 2*len(age))}
+	for _, a := range age {
+		x.Val = append(x.Val, 1, a-mean)
+	}
+	inner := age[len(age)-1]
+	if end > mean {
+		inner = age[0]
+	}
+	q, err := r.Table(st.Name, []float64{mean, inner, end}, []float64{0.25, 0.75})
+	if err != nil {
+		return nil, err
+	}
+	sigma := (q.Values[0][1] - q.Values[0][0]) / normIQR
+	_, neff := (&rows{w: w}).weight()
+	var out []EdgeProblem
+	for _, tau := range st.Chart {
+		sol, err := solver.Solve(&solver.Problem{Y: y, X: x, W: w, Tau: tau}, nil)
+		if err != nil {
+			return nil, fmt.Errorf("edge slope at centile %g: %w", 100*tau, err)
+		}
+		dataSlope := sol.Coef[1]
+		zt := normZ(tau)
+		se := sigma * math.Sqrt(tau*(1-tau)) / normalPDF(zt) / (math.Sqrt(neff) * sd)
+		qi, err := r.Quantile(st.Name, inner, tau)
+		if err != nil {
+			return nil, err
+		}
+		qe, err := r.Quantile(st.Name, end, tau)
+		if err != nil {
+			return nil, err
+		}
+		curveSlope := (qi - qe) / (inner - end)
+		if math.Abs(curveSlope-dataSlope) > EdgeSlopeZ*se {
+			out = append(out, EdgeProblem{Stratum: st.Name, Kind: "bend", Tau: tau, Age: end,
+				Detail: fmt.Sprintf("the curve's mean slope %.3g per age unit over ages %.4g–%.4g against %.3g ± %.2g (1 SE) in the data",
+					curveSlope, min(inner, end), max(inner, end), dataSlope, se)})
+		}
+		v, err := r.Velocity(st.Name, end, tau)
+		if err != nil {
+			return nil, err
+		}
+		if v*dataSlope < 0 && math.Abs(dataSlope) > HookZ*se {
+			out = append(out, EdgeProblem{Stratum: st.Name, Kind: "hook", Tau: tau, Age: end,
+				Detail: fmt.Sprintf("the curve's slope at the end is %.3g per age unit while the data near the end rise at %.3g ± %.2g (1 SE)", v, dataSlope, se)})
+		}
+	}
+	return out, nil
+}
+
+// normalPDF is the standard normal density.
+func normalPDF(z float64) float64 { return math.Exp(-z*z/2) / math.Sqrt(2*math.Pi) }

@@ -193,8 +193,11 @@ func (r *Reference) Quantile(stratum string, age, tau float64) (float64, error) 
 	return r.quantile(stratum, age, tau, 0)
 }
 
-// Velocity returns dQ_tau/dage, the rate of change of the fitted quantile
-// per age unit at the given age, by the chain rule through the age scale,
+// Velocity returns dQ_tau/dage, the slope of the fitted centile curve (the
+// rate of change of the quantile per age unit) at the given age. It is not
+// a velocity centile: the tau-quantile of children's growth rates needs
+// repeated measurements of the same children and is usually much wider. It
+// is computed by the chain rule through the age scale,
 // dQ/dage = dQ/dt * dt/dage, with dQ/dt the exact derivative of the spline
 // (at a knot of a spline that is not continuously differentiable there, the
 // derivative of the span to the right). tau and age are treated as in

@@ -92,25 +92,6 @@ type LMSCurve struct {
 	S    []float64 `json:"s"`
 }
 
-// Smoothness records how the curves' flexibility was chosen.
-type Smoothness struct {
-	InteriorKnots int     `json:"interior_knots"`
-	Lambda        float64 `json:"lambda"`    // L1 difference-penalty weight
-	Order         int     `json:"order"`     // difference order of the penalty
-	Criterion     string  `json:"criterion"` // "fixed", "sic" or "cv"
-	Score         float64 `json:"score"`     // criterion value at the choice
-	// ChosenBy says in words how the smoothness was chosen, for readers of
-	// the file: CriterionText(Criterion).
-	ChosenBy string `json:"chosen_by,omitempty"`
-	// EDF is the effective degrees of freedom of the median fit at the
-	// choice: the number of rows it interpolates (Koenker, Ng & Portnoy
-	// 1994); 0 when not computed (cross-validation fits held-out folds).
-	EDF int `json:"edf,omitempty"`
-	// Candidates are the smoothness values tried, in the order tried, with
-	// their criterion values.
-	Candidates []Candidate `json:"candidates,omitempty"`
-}
-
 // Candidate is one smoothness value tried and its criterion value (lower
 // is better); SE is the standard error of a cross-validated score.
 type Candidate struct {
@@ -119,27 +100,6 @@ type Candidate struct {
 	Score         float64 `json:"score"`
 	SE            float64 `json:"se,omitempty"`
 	EDF           int     `json:"edf,omitempty"`
-}
-
-// Flag records a sample-size guard decision: too few observations beyond the
-// centile Tau in the age window [AgeLo, AgeHi).
-type Flag struct {
-	Tau      float64 `json:"tau"`
-	AgeLo    float64 `json:"age_lo"`
-	AgeHi    float64 `json:"age_hi"`
-	Expected float64 `json:"expected"` // expected count beyond the centile
-	Action   string  `json:"action"`   // "flagged" or "dropped"
-}
-
-// Band is a bootstrap pointwise 95% interval for one chart centile on an age
-// grid, with the percentile-interval trust check |bias|/SE.
-type Band struct {
-	Tau      float64   `json:"tau"`
-	Ages     []float64 `json:"ages"`
-	Lo       []float64 `json:"lo"`
-	Hi       []float64 `json:"hi"`
-	BiasToSE []float64 `json:"bias_to_se"`
-	Unstable bool      `json:"unstable"` // some |bias|/SE exceeds BiasSELimit
 }
 
 // Data holds measurement rows column-wise. Weight, Stratum and Subject may be

@@ -10,7 +10,9 @@ import (
 	"growband/spline"
 )
 
-// Smoothness selection. A stratum's curves share one knot vector and one
+// Smoothness records how the curves' flexibility was chosen.
+//
+// A stratum's curves share one knot vector and one
 // penalty weight lambda. What the settings leave open is chosen by a
 // criterion summed over the median and the chart centiles (the median alone
 // with Settings.MedianOnly) in two stages:
@@ -51,6 +53,23 @@ import (
 //   - Kish L (1965). Survey Sampling. Wiley, New York.
 //   - Hastie T, Tibshirani R, Friedman J (2009). The Elements of
 //     Statistical Learning, 2nd ed. Springer, New York.
+type Smoothness struct {
+	InteriorKnots int     `json:"interior_knots"`
+	Lambda        float64 `json:"lambda"`    // L1 difference-penalty weight
+	Order         int     `json:"order"`     // difference order of the penalty
+	Criterion     string  `json:"criterion"` // "fixed", "sic" or "cv"
+	Score         float64 `json:"score"`     // criterion value at the choice
+	// ChosenBy says in words how the smoothness was chosen, for readers of
+	// the file: CriterionText(Criterion).
+	ChosenBy string `json:"chosen_by,omitempty"`
+	// EDF is the effective degrees of freedom of the median fit at the
+	// choice: the number of rows it interpolates (Koenker, Ng & Portnoy
+	// 1994); 0 when not computed (cross-validation fits held-out folds).
+	EDF int `json:"edf,omitempty"`
+	// Candidates are the smoothness values tried, in the order tried, with
+	// their criterion values.
+	Candidates []Candidate `json:"candidates,omitempty"`
+}
 
 // knotCandidates are the interior knot counts tried when Settings.Knots is 0.
 var knotCandidates = []int{0, 1, 2, 3, 4, 5, 6, 8, 10, 12, 15, 20, 25, 30}
@@ -87,7 +106,7 @@ type model struct {
 
 func newModel(r *rows, interior []float64, degree, order int) (*model, error) {
 	n := len(r.t)
-	knots, err := spline.Clamped(r.t[0], r.t[n-1], interior, degree)
+	knots, err := spline.Clamped(r.lo[1], r.hi[1], interior, degree)
 	if err != nil {
 		return nil, fmt.Errorf("%w: %w", ErrData, err)
 	}
@@ -160,13 +179,13 @@ type candidate struct {
 // knotCandidates (counts giving the same number of distinct knots merged).
 func knotSets(r *rows, c *config) ([][]float64, error) {
 	n := len(r.t)
-	lo, hi := r.t[0], r.t[n-1]
+	lo, hi := r.lo[1], r.hi[1]
 	var sets [][]float64
 	switch {
 	case c.knotT != nil:
 		for i, k := range c.knotT {
 			if !(k > lo && k < hi) {
-				return nil, fmt.Errorf("%w: knot age %v outside the age range (%v, %v)", ErrSettings, c.knotAges[i], r.age[0], r.age[n-1])
+				return nil, fmt.Errorf("%w: knot age %v outside the age range (%v, %v)", ErrSettings, c.knotAges[i], r.lo[0], r.hi[0])
 			}
 		}
 		sets = [][]float64{c.knotT}

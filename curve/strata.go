@@ -95,7 +95,7 @@ func (r *rows) sample(m int, seed uint64) *rows {
 	rng := rand.New(rand.NewPCG(seed, sampleStream))
 	n := len(r.y)
 	s := &rows{name: r.name, age: make([]float64, m), t: make([]float64, m),
-		y: make([]float64, m), w: make([]float64, m), nsubj: r.nsubj}
+		y: make([]float64, m), w: make([]float64, m), nsubj: r.nsubj, lo: r.lo, hi: r.hi}
 	if r.subj != nil {
 		s.subj = make([]int, m)
 	}
@@ -115,15 +115,18 @@ func (r *rows) sample(m int, seed uint64) *rows {
 func fitStratum(pl *pool, r *rows, c *config) (*Stratum, error) {
 	n := len(r.y)
 	sel := r
-	if n > c.selectRows && choosesSmoothness(c) {
-		sel = r.sample(c.selectRows, c.seed)
-		c.prog.printf("stratum %q: %d rows, choosing smoothness on an age-stratified sample of %d", r.name, n, c.selectRows)
-	} else {
-		c.prog.printf("stratum %q: %d rows, choosing smoothness", r.name, n)
-	}
-	ch, err := chooseSmoothness(pl, sel, c)
-	if err != nil {
-		return nil, err
+	ch := c.chosen[r.name]
+	var err error
+	if ch == nil {
+		if n > c.selectRows && choosesSmoothness(c) {
+			sel = r.sample(c.selectRows, c.seed)
+			c.prog.printf("stratum %q: %d rows, choosing smoothness on an age-stratified sample of %d", r.name, n, c.selectRows)
+		} else {
+			c.prog.printf("stratum %q: %d rows, choosing smoothness", r.name, n)
+		}
+		if ch, err = chooseSmoothness(pl, sel, c); err != nil {
+			return nil, err
+		}
 	}
 	m := ch.model
 	if sel != r {
@@ -157,8 +160,8 @@ func fitStratum(pl *pool, r *rows, c *config) (*Stratum, error) {
 	st := &Stratum{
 		Name:       r.name,
 		N:          n,
-		AgeMin:     r.age[0],
-		AgeMax:     r.age[n-1],
+		AgeMin:     r.lo[0],
+		AgeMax:     r.hi[0],
 		Knots:      slices.Clone(m.knots),
 		Taus:       taus,
 		Coef:       coef,

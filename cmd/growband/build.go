@@ -15,7 +15,6 @@ import (
 	"time"
 
 	"growband/curve"
-	"growband/internal/ageunit"
 	"growband/internal/intake"
 	"growband/render"
 )
@@ -82,10 +81,11 @@ type built struct {
 	table    *intake.Table
 	ref      *curve.Reference
 	diag     *curve.Diagnostics
-	refitted bool     // a second fit followed the implausibility screen
-	dir      string   // output directory
-	files    []string // files written, relative to dir
-	notes    []string // remarks worth the user's attention
+	refitted bool                // the implausibility screen ran before the fit
+	scales   []curve.ScaleChoice // candidate age scales, when chosen from the data
+	dir      string              // output directory
+	files    []string            // files written, relative to dir
+	notes    []string            // remarks worth the user's attention
 	elapsed  time.Duration
 }
 
@@ -105,31 +105,42 @@ func build(plan *intake.Plan, dir string, prog progress) (*built, error) {
 	if err := intake.Misreadings(t, plan); err != nil {
 		return nil, err
 	}
-	settings := fitSettings(plan, t, prog)
 	data := tableData(t)
-	ref, err := curve.Fit(data, settings)
+	res, err := curve.Build(data, buildSettings(plan, prog))
+	if errors.Is(err, curve.ErrEdge) {
+		return nil, fmt.Errorf("%s: %w\n(nothing written; a larger sample, a stated fit.age_range or another fit.age_scale may help; fit.accept_edge_problems = true builds anyway)", plan.Name, err)
+	}
 	if err != nil {
-		return nil, fmt.Errorf("%s: fit: %w", plan.Name, err)
+		return nil, fmt.Errorf("%s: %w", plan.Name, err)
 	}
-	if lim := plan.Plausible.Z; lim > 0 {
-		idx, detail := implausible(ref, data, lim)
-		if len(idx) > 0 {
-			prog.printf("%d rows with |z| > %g against the first fit excluded; fitting again", len(idx), lim)
-			t.Exclude(idx, intake.ReasonImplausible, detail)
-			data = tableData(t)
-			if ref, err = curve.Fit(data, settings); err != nil {
-				return nil, fmt.Errorf("%s: second fit: %w", plan.Name, err)
+	excludeBuilt(t, res.Excluded)
+	b.ref = res.Reference
+	b.refitted = plan.Plausible.Z > 0
+	b.scales = res.Scales
+	if len(res.Scales) > 0 {
+		var parts []string
+		for _, c := range res.Scales {
+			switch {
+			case c.Err != "":
+				parts = append(parts, fmt.Sprintf("%s (unusable)", c.Scale))
+			case c.Problems > 0:
+				parts = append(parts, fmt.Sprintf("%s %.5g (%d edge problems)", c.Scale, c.Score, c.Problems))
+			default:
+				parts = append(parts, fmt.Sprintf("%s %.5g", c.Scale, c.Score))
 			}
-			b.refitted = true
 		}
+		b.notes = append(b.notes, "age scale chosen by the smoothness criterion summed over strata (lower is better; the best without edge problems wins): "+strings.Join(parts, ", "))
 	}
-	b.ref = ref
-	notes, err := fitConditional(plan, ref, data, prog)
+	for _, p := range res.Problems {
+		b.notes = append(b.notes, "accepted edge problem: "+p.String())
+	}
+	data = tableData(t)
+	notes, err := fitConditional(plan, b.ref, data, prog)
 	if err != nil {
 		return nil, err
 	}
 	b.notes = append(b.notes, notes...)
-	if b.diag, err = curve.Check(ref, data, nil); err != nil {
+	if b.diag, err = curve.Check(b.ref, data, nil); err != nil {
 		return nil, fmt.Errorf("diagnostics: %w", err)
 	}
 	b.elapsed = time.Since(start)
@@ -173,86 +184,82 @@ func allExcluded(t *intake.Table, dir string) error {
 	return errors.New(b.String())
 }
 
-// fitSettings turns the plan's [fit] and [measure] tables into curve
-// settings.
-func fitSettings(plan *intake.Plan, t *intake.Table, prog progress) *curve.Settings {
+// buildSettings turns the plan's [fit], [measure] and [plausible] tables
+// into the settings of curve.Build.
+func buildSettings(plan *intake.Plan, prog progress) *curve.BuildSettings {
 	f := plan.Fit
-	s := &curve.Settings{
-		Centiles:  slices.Clone(f.Centiles),
-		Bootstrap: f.Bootstrap,
-		Seed:      uint64(f.Seed),
-		Progress:  prog.w,
-		Measure:   plan.Measure.Name,
-		Unit:      plan.Measure.Unit,
-		AgeUnit:   plan.Measure.AgeUnit,
+	s := &curve.BuildSettings{
+		Fit: curve.Settings{
+			Centiles:  slices.Clone(f.Centiles),
+			Bootstrap: f.Bootstrap,
+			Seed:      uint64(f.Seed),
+			Progress:  prog.w,
+			Measure:   plan.Measure.Name,
+			Unit:      plan.Measure.Unit,
+			AgeUnit:   plan.Measure.AgeUnit,
+			AgeRange:  [2]float64{f.AgeRange.Min, f.AgeRange.Max},
+		},
+		ScreenZ:     plan.Plausible.Z,
+		AcceptEdges: f.AcceptEdges,
 	}
+	if s.ScreenZ == 0 {
+		s.ScreenZ = curve.NoScreen
+	}
+	fs := &s.Fit
 	switch {
 	case f.Knots.At != nil:
-		s.KnotAges = slices.Clone(f.Knots.At)
+		fs.KnotAges = slices.Clone(f.Knots.At)
 	case f.Knots.Auto:
 	case f.Knots.Count == 0:
-		s.Knots = curve.NoKnots
+		fs.Knots = curve.NoKnots
 	default:
-		s.Knots = f.Knots.Count
+		fs.Knots = f.Knots.Count
 	}
 	switch {
 	case f.Penalty.Auto:
-		s.Penalty = curve.PenaltyAuto
+		fs.Penalty = curve.PenaltyAuto
 	case f.Penalty.Lambda == 0:
-		s.Penalty = curve.PenaltyNone
+		fs.Penalty = curve.PenaltyNone
 	default:
-		s.Penalty, s.Lambda = curve.PenaltyFixed, f.Penalty.Lambda
+		fs.Penalty, fs.Lambda = curve.PenaltyFixed, f.Penalty.Lambda
 	}
 	switch f.AgeScale.Kind {
+	case "auto":
+		fs.AgeScale = curve.AgeScale{Kind: curve.ScaleAuto}
 	case "log":
-		shift := f.AgeScale.Shift
-		if f.AgeScale.AutoShift {
-			shift = autoShift(t, plan.Measure.AgeUnit)
-			prog.printf("age scale log(age + %.4g)", shift)
-		}
-		s.AgeScale = curve.AgeScale{Kind: curve.ScaleLog, Shift: shift}
+		fs.AgeScale = curve.AgeScale{Kind: curve.ScaleLog, Shift: f.AgeScale.Shift}
+		s.AutoLogShift = f.AgeScale.AutoShift
 	case "power":
-		s.AgeScale = curve.AgeScale{Kind: curve.ScalePower, Power: f.AgeScale.Power}
+		fs.AgeScale = curve.AgeScale{Kind: curve.ScalePower, Power: f.AgeScale.Power}
 	}
 	return s
 }
 
-// autoShift is the offset of fit.age_offset = "auto": one month in the
-// plan's age unit, plus the youngest age's distance below zero, so that
-// log(age + shift) spreads the first months without an extreme at birth.
-func autoShift(t *intake.Table, unit string) float64 {
-	month := 1.0
-	if u, err := ageunit.Parse(unit); err == nil {
-		month = ageunit.Months.Convert(1, u)
+// excludeBuilt moves the rows curve.Build left out (indices into t.Rows at
+// the call) to t's exclusions with their reasons.
+func excludeBuilt(t *intake.Table, ex []curve.Exclusion) {
+	var ageIdx, implIdx []int
+	var ageDetail, implDetail []string
+	for _, e := range ex {
+		if e.Reason == curve.ExcludedAgeRange {
+			ageIdx, ageDetail = append(ageIdx, e.Row), append(ageDetail, e.Detail)
+		}
 	}
-	lo := 0.0
-	for i := range t.Rows {
-		lo = min(lo, t.Rows[i].Age)
+	for _, e := range ex {
+		if e.Reason == curve.ExcludedImplausible {
+			// Rows before it that left for their age no longer count.
+			shift, _ := slices.BinarySearch(ageIdx, e.Row)
+			implIdx, implDetail = append(implIdx, e.Row-shift), append(implDetail, e.Detail)
+		}
 	}
-	return tidy(month - lo)
+	t.Exclude(ageIdx, intake.ReasonAgeRange, ageDetail)
+	t.Exclude(implIdx, intake.ReasonImplausible, implDetail)
 }
 
 // tableData returns the used rows of t as fit data.
 func tableData(t *intake.Table) *curve.Data {
 	age, value, weight, stratum, subject := t.Columns()
 	return &curve.Data{Age: age, Value: value, Weight: weight, Stratum: stratum, Subject: subject}
-}
-
-// implausible returns the rows of d with |z| > lim under r, with their
-// z-scores as detail text.
-func implausible(r *curve.Reference, d *curve.Data, lim float64) ([]int, []string) {
-	// Rows the reference cannot score are not implausible, just unscored;
-	// for the training rows themselves this does not happen.
-	scores, _ := r.ScoreAll(nil, d)
-	var idx []int
-	var detail []string
-	for i, s := range scores {
-		if math.Abs(s.Z) > lim {
-			idx = append(idx, i)
-			detail = append(detail, fmt.Sprintf("z = %.2f", s.Z))
-		}
-	}
-	return idx, detail
 }
 
 // writeFiles writes the reference, tables, charts and report into b.dir.
@@ -349,7 +356,7 @@ func (b *built) writeCentiles(w io.Writer) error {
 		return err
 	}
 	roundTable(b.ref, rows, cols, false)
-	return writeRowsCSV(w, cols, rows, false)
+	return writeRowsCSV(w, b.ref, cols, rows, false)
 }
 
 // stratumLabel names a stratum in messages.
@@ -372,7 +379,7 @@ func (b *built) summary(w io.Writer) error {
 		fmt.Fprintf(tw, "  %s\t%d\n", c.Reason, c.N)
 	}
 	tw.Flush()
-	fmt.Fprintf(w, "\n%s, %s\n", refTitle(b.ref), fitPasses(b.refitted))
+	fmt.Fprintf(w, "\n%s, %s, age scale %s%s\n", refTitle(b.ref), fitPasses(b.refitted), b.ref.AgeScale, scaleHow(b.scales))
 	tw = tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
 	fmt.Fprintln(tw, "stratum\tn\tages\tinterior knots\tlambda\tchosen by\tsize guard")
 	for _, st := range b.ref.Strata {
@@ -393,9 +400,17 @@ func (b *built) summary(w io.Writer) error {
 
 func fitPasses(refitted bool) string {
 	if refitted {
-		return "fitted twice (after the implausibility screen)"
+		return "fitted after the implausibility screen"
 	}
-	return "fitted once (no implausible rows, or screen off)"
+	return "fitted without an implausibility screen"
+}
+
+// scaleHow says how the age scale was chosen.
+func scaleHow(sc []curve.ScaleChoice) string {
+	if sc == nil {
+		return " (from the plan)"
+	}
+	return fmt.Sprintf(" (chosen from %d candidates)", len(sc))
 }
 
 // refTitle names the reference's measure and units.
@@ -455,6 +470,7 @@ type tableRow struct {
 	stratum string
 	age     float64
 	values  []float64
+	lo, hi  []float64  // bootstrap band per centile, NaN where none; nil for none at all
 	lms     *curve.LMS // nil for velocity tables or where no LMS fits
 }
 
@@ -507,6 +523,7 @@ func centileRows(r *curve.Reference, strata []*curve.Stratum, ages, centiles []f
 		}
 		for i, a := range in {
 			row := tableRow{stratum: st.Name, age: a, values: tab.Values[i]}
+			row.lo, row.hi = bandsAt(st, a, taus)
 			if l, err := r.LMS(st.Name, a); err == nil {
 				row.lms = &l
 			} else if !errors.Is(err, curve.ErrDegenerate) {
@@ -522,31 +539,108 @@ func centileRows(r *curve.Reference, strata []*curve.Stratum, ages, centiles []f
 }
 
 // writeRowsCSV writes table rows as CSV: stratum, age, one column per
-// centile named by its number, then L, M, S (left out for velocity).
-func writeRowsCSV(w io.Writer, centiles []float64, rows []tableRow, velocity bool) error {
+// centile named by its number, then L, M, S, then the bootstrap band of
+// each centile as "C_lo95" and "C_hi95" when the reference has bands. A
+// velocity table has columns named "slope of centile-C curve (UNIT/AGE)"
+// and no L, M, S or bands.
+func writeRowsCSV(w io.Writer, r *curve.Reference, centiles []float64, rows []tableRow, velocity bool) error {
 	cw := csv.NewWriter(w)
 	head := []string{"stratum", "age"}
+	bands := false
+	for _, row := range rows {
+		bands = bands || row.lo != nil
+	}
 	for _, c := range centiles {
-		head = append(head, centileName(c))
+		if velocity {
+			head = append(head, slopeName(r, c))
+		} else {
+			head = append(head, centileName(c))
+		}
 	}
 	if !velocity {
 		head = append(head, "L", "M", "S")
+		if bands {
+			for _, c := range centiles {
+				head = append(head, centileName(c)+"_lo95", centileName(c)+"_hi95")
+			}
+		}
 	}
 	cw.Write(head)
-	for _, r := range rows {
-		rec := []string{r.stratum, ageText(r.age)}
-		for _, v := range r.values {
+	for _, row := range rows {
+		rec := []string{row.stratum, ageText(row.age)}
+		for _, v := range row.values {
 			rec = append(rec, num(v))
 		}
 		if !velocity {
-			if r.lms != nil {
-				rec = append(rec, num(r.lms.L), num(r.lms.M), num(r.lms.S))
+			if row.lms != nil {
+				rec = append(rec, num(row.lms.L), num(row.lms.M), num(row.lms.S))
 			} else {
 				rec = append(rec, "", "", "")
+			}
+			if bands {
+				for j := range centiles {
+					if row.lo == nil || math.IsNaN(row.lo[j]) {
+						rec = append(rec, "", "")
+					} else {
+						rec = append(rec, num(row.lo[j]), num(row.hi[j]))
+					}
+				}
 			}
 		}
 		cw.Write(rec)
 	}
 	cw.Flush()
 	return cw.Error()
+}
+
+// slopeName heads a velocity column so that it cannot be read as a
+// velocity centile: the slope of the centile's curve in value units per age
+// unit.
+func slopeName(r *curve.Reference, c float64) string {
+	return fmt.Sprintf("slope of centile-%s curve (%s)", centileName(c), slopeUnit(r))
+}
+
+// slopeUnit is the unit of a centile curve's slope, e.g. "kg/month".
+func slopeUnit(r *curve.Reference) string {
+	u := r.Unit
+	if u == "" {
+		u = "units"
+	}
+	return u + "/" + singular(r.AgeUnit)
+}
+
+// bandsAt returns the bootstrap band of each tau at age (NaN where the
+// stratum has none for it), or nils when the stratum has no bands.
+func bandsAt(st *curve.Stratum, age float64, taus []float64) (lo, hi []float64) {
+	if len(st.Bands) == 0 {
+		return nil, nil
+	}
+	lo, hi = make([]float64, len(taus)), make([]float64, len(taus))
+	for j, tau := range taus {
+		lo[j], hi[j] = math.NaN(), math.NaN()
+		for k := range st.Bands {
+			if bd := &st.Bands[k]; math.Abs(bd.Tau-tau) <= 1e-12 {
+				if l, h, ok := bd.At(age); ok {
+					lo[j], hi[j] = l, h
+				}
+			}
+		}
+	}
+	return lo, hi
+}
+
+// implausible returns the rows of d with |z| > lim under r, with their
+// z-scores as detail text.
+func implausible(r *curve.Reference, d *curve.Data, lim float64) ([]int, []string) {
+	// Rows the reference cannot score are not implausible, just unscored.
+	scores, _ := r.ScoreAll(nil, d)
+	var idx []int
+	var detail []string
+	for i, s := range scores {
+		if math.Abs(s.Z) > lim {
+			idx = append(idx, i)
+			detail = append(detail, fmt.Sprintf("z = %.2f", s.Z))
+		}
+	}
+	return idx, detail
 }

@@ -7,8 +7,6 @@ import (
 	"io"
 	"runtime/debug"
 	"strings"
-
-	"growband/internal/clinic"
 )
 
 const usageTop = `usage: growband <command> [arguments]
@@ -40,22 +38,7 @@ var commands = map[string]command{
 	"chart":   runChart,
 	"check":   runCheck,
 	"compare": runCompare,
-	"serve":   adapt("serve", clinic.RunServe),
-}
-
-// adapt maps the help and usage errors of a subcommand that lives in its own
-// package onto this command's.
-func adapt(name string, c command) command {
-	return func(args []string, stdout, stderr io.Writer) error {
-		err := c(args, stdout, stderr)
-		switch {
-		case errors.Is(err, flag.ErrHelp):
-			return errHelp
-		case errors.Is(err, clinic.ErrUsage):
-			return usagef(name, "%v", err)
-		}
-		return err
-	}
+	"serve":   runServe,
 }
 
 // errHelp is returned after a usage text was shown on request; it means

@@ -2,7 +2,6 @@ package main
 
 import (
 	"encoding/json"
-	"fmt"
 	"io"
 	"math"
 	"strconv"
@@ -16,9 +15,16 @@ const tableUsage = `usage: growband table --ref FILE [--ages 0:60:0.5 | --ages 1
 Writes the reference's centiles to standard output: one row per stratum and
 age, one column per centile named by its number (for example "3", "50",
 "97"), then the L, M and S of the Box-Cox normal summary at that age (empty
-where the centiles cannot be summarised that way). With --velocity the
-centile columns hold growth velocities instead, the rate of change of each
-centile curve per age unit, and there are no L, M, S columns.
+where the centiles cannot be summarised that way), then, when the reference
+was built with bootstrap replicates, the pointwise 95% band of each centile
+as columns "3_lo95", "3_hi95", ... (empty for a centile without a band).
+
+With --velocity each column holds the slope of one centile curve, named for
+example "slope of centile-3 curve (kg/month)": how fast the 3rd centile
+itself rises with age. This is not a velocity centile: a child growing
+along the 3rd centile has that velocity, but the 3rd centile of children's
+velocities is a different and usually much wider quantity, which needs
+repeated measurements of the same children and is not computed here.
 
 Ages default to a tidy grid over each stratum's fitted age range; ages
 outside a stratum's fitted range are left out (a reference is never
@@ -35,7 +41,7 @@ func runTable(args []string, stdout, stderr io.Writer) error {
 	centFlag := fs.String("centiles", "", "comma-separated centiles in percent (default: the chart centiles)")
 	stratum := fs.String("stratum", "", "only this stratum (default: all)")
 	format := fs.String("format", "csv", "output format: csv or json")
-	velocity := fs.Bool("velocity", false, "give growth velocities (change per age unit) instead of centiles")
+	velocity := fs.Bool("velocity", false, "give the slope of each centile curve (change per age unit), not velocity centiles")
 	pos, err := parseFlags(fs, tableUsage, args, stdout)
 	if err != nil {
 		return err
@@ -90,7 +96,7 @@ func runTable(args []string, stdout, stderr io.Writer) error {
 	if *format == "json" {
 		return writeRowsJSON(stdout, ref, cols, rows, *velocity)
 	}
-	return writeRowsCSV(stdout, cols, rows, *velocity)
+	return writeRowsCSV(stdout, ref, cols, rows, *velocity)
 }
 
 // jsonNumber is a float that encodes NaN as null.
@@ -109,6 +115,8 @@ func writeRowsJSON(w io.Writer, r *curve.Reference, centiles []float64, rows []t
 		Stratum string       `json:"stratum"`
 		Age     jsonNumber   `json:"age"`
 		Values  []jsonNumber `json:"values"`
+		Lo      []jsonNumber `json:"lo95,omitempty"`
+		Hi      []jsonNumber `json:"hi95,omitempty"`
 		L       *jsonNumber  `json:"L,omitempty"`
 		M       *jsonNumber  `json:"M,omitempty"`
 		S       *jsonNumber  `json:"S,omitempty"`
@@ -116,8 +124,8 @@ func writeRowsJSON(w io.Writer, r *curve.Reference, centiles []float64, rows []t
 	kind := "centiles"
 	unit := r.Unit
 	if velocity {
-		kind = "velocity"
-		unit = fmt.Sprintf("%s per %s", r.Unit, singular(r.AgeUnit))
+		kind = "centile-curve-slopes"
+		unit = slopeUnit(r)
 	}
 	doc := struct {
 		Kind     string    `json:"kind"`
@@ -132,6 +140,9 @@ func writeRowsJSON(w io.Writer, r *curve.Reference, centiles []float64, rows []t
 		o := row{Stratum: tr.stratum, Age: jsonNumber(tidy(tr.age))}
 		for _, v := range tr.values {
 			o.Values = append(o.Values, jsonNumber(v))
+		}
+		for j := range tr.lo {
+			o.Lo, o.Hi = append(o.Lo, jsonNumber(tr.lo[j])), append(o.Hi, jsonNumber(tr.hi[j]))
 		}
 		if tr.lms != nil {
 			l, m, s := jsonNumber(tr.lms.L), jsonNumber(tr.lms.M), jsonNumber(tr.lms.S)
@@ -191,6 +202,9 @@ func roundTable(r *curve.Reference, rows []tableRow, centiles []float64, velocit
 					break
 				}
 			}
+		}
+		for j := range tr.lo {
+			tr.lo[j], tr.hi[j] = roundSig(tr.lo[j], tableDigits), roundSig(tr.hi[j], tableDigits)
 		}
 		if tr.lms != nil {
 			tr.lms.L, tr.lms.M, tr.lms.S = roundSig(tr.lms.L, tableDigits), roundSig(tr.lms.M, tableDigits), roundSig(tr.lms.S, tableDigits)

@@ -16,7 +16,8 @@ const (
 	certDual = 1e-8
 	// certStation: every component of X'd + D'd + G'mu must be within
 	// certStation times the sum of the absolute values of its terms (plus
-	// one). A straight sum of n terms is off by at most n*eps of that sum
+	// one; for pooled rows an upper bound of that sum, at most
+	// max(tau, 1-tau)/min(tau, 1-tau) times it, see rowScale.mass). A straight sum of n terms is off by at most n*eps of that sum
 	// (Higham 2002, ch. 4): 2.2e-9 at n = 10^7 in the worst case, about
 	// sqrt(n)*eps in practice; an answer of a wrongly reduced problem
 	// misses by a sizeable fraction of it (about 0.8 in the case that made

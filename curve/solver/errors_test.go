@@ -121,7 +121,7 @@ func TestIterationLimit(t *testing.T) {
 
 // TestErrorMessages checks the package prefix that STYLE.md requires.
 func TestErrorMessages(t *testing.T) {
-	for _, e := range []error{ErrNotFinite, ErrNegWeight, ErrTau, ErrTooFew, ErrRankDeficient, ErrInfeasible, ErrNoConverge} {
+	for _, e := range []error{ErrNotFinite, ErrNegWeight, ErrTau, ErrTooFew, ErrRankDeficient, ErrInfeasible, ErrNoConverge, ErrUnverified} {
 		if s := e.Error(); len(s) < 8 || s[:8] != "solver: " {
 			t.Errorf("error %q lacks the \"solver: \" prefix", s)
 		}

@@ -159,7 +159,7 @@ func solveReduced(full *table, nData int, tau float64, cr *carry, basis []int, m
 			next = cr.reduction(full, nData)
 			next.prepare(v.b, tau, ah)
 		}
-		bad, zero, obj, cert := red.verify(v.b, tol, tie, next, t, v.dual)
+		bad, zero, obj, cert := red.verify(v.b, tau, tol, tie, next, t, v.dual)
 		if len(bad) == 0 && cert != nil {
 			// Every pooled sign holds, yet the answer is not optimal for
 			// the full problem: the reduction itself is wrong (a defect,
@@ -256,9 +256,17 @@ func (red *reduction) dualAt(dual []float64) func(i int) float64 {
 type rowScale struct {
 	per []float64 // per coefficient
 	// row holds each data row's scale once filled (by the first pass that
-	// classifies rows), so later passes of a grid read it.
-	row    []float64
+	// classifies rows), so later passes of a grid read it. Single
+	// precision suffices to place rows in a band and halves the memory.
+	row    []float32
 	filled bool
+	// mass holds sum_i (a_i+c_i)|x_ik| per coefficient and massY
+	// sum_i (a_i+c_i)|y_i| over the data rows, filled with row. A data
+	// row's multiplier is at most max(tau, 1-tau)(a_i+c_i) in size, so
+	// these bound the sizes of the terms of the certificate's sums from
+	// the pooled rows without summing them at every tau.
+	mass  []float64
+	massY float64
 }
 
 // newRowScale estimates the residual scales from the residuals at b of
@@ -282,7 +290,7 @@ func newRowScale(x *Design, y []float64, n int, b []float64) *rowScale {
 		total += v
 	}
 	mean := total / float64(p)
-	s := &rowScale{per: make([]float64, p), row: make([]float64, n)}
+	s := &rowScale{per: make([]float64, p), row: make([]float32, n), mass: make([]float64, p)}
 	for k := range s.per {
 		s.per[k] = 0
 		if mass[k] > 0 && size[k] > 0 {
@@ -391,9 +399,14 @@ func (red *reduction) prepare(b []float64, tau float64, ah *ahead) {
 // constraints, stationarity and the primal-dual gap. When next is not nil
 // the same pass classifies the rows for next (prepared for its tau; the
 // costs are rescaled to it afterwards).
-func (red *reduction) verify(b []float64, tol, tie float64, next *reduction, t *table, dual []float64) (bad, zero []int, obj float64, cert error) {
+func (red *reduction) verify(b []float64, tau, tol, tie float64, next *reduction, t *table, dual []float64) (bad, zero []int, obj float64, cert error) {
 	ck := newCertifier(red.full.p(), tol)
 	bad, zero, obj = red.pass(b, tol, tie, next, ck, dual)
+	share := max(tau, 1-tau)
+	for k, v := range red.scale.mass {
+		ck.stAbs[k] += share * v
+	}
+	ck.dualAbs += share * red.scale.massY
 	f := red.full
 	// The remaining rows: penalty rows, whose multipliers follow the kept
 	// data rows in t, and hard rows, which follow t's soft rows.
@@ -439,7 +452,7 @@ func (red *reduction) pass(b []float64, tol, tie float64, into *reduction, ck *c
 		g, up, down            []float64
 		keep                   []int
 		isign                  []int8
-		scale                  []float64
+		scale                  []float32
 		fill                   bool
 		klo, khi               float64
 		upY, downY, upW, downW float64
@@ -450,11 +463,11 @@ func (red *reduction) pass(b []float64, tol, tie float64, into *reduction, ck *c
 		klo, khi = into.klo, into.khi
 	}
 	sign := red.sign[:n]
-	var sumAbs, sumLin, yd, ydAbs float64
-	var st, stAbs []float64
+	var sumAbs, sumLin, yd float64
+	var st []float64
 	kept := 0
 	if check {
-		st, stAbs = ck.st, ck.stAbs
+		st = ck.st
 	}
 	for i, fi := range first {
 		xi := x.Val[i*w : i*w+w]
@@ -479,15 +492,14 @@ func (red *reduction) pass(b []float64, tol, tie float64, into *reduction, ck *c
 			} else {
 				// A pooled row: a_i above, -c_i below, without branching.
 				d := 0.5 * ((1+s)*ca[i] - (1-s)*cc[i])
-				sv, sa := st[fi:fi+w], stAbs[fi:fi+w]
-				sv, sa = sv[:len(xi)], sa[:len(xi)]
-				ad := math.Abs(d)
+				// The sizes of these terms are bounded through
+				// rowScale.mass, not summed here.
+				sv := st[fi : fi+w]
+				sv = sv[:len(xi)]
 				for k, v := range xi {
 					sv[k] += d * v
-					sa[k] += ad * math.Abs(v)
 				}
 				yd += y[i] * d
-				ydAbs += math.Abs(y[i] * d)
 			}
 		}
 		if into == nil {
@@ -499,9 +511,15 @@ func (red *reduction) pass(b []float64, tol, tie float64, into *reduction, ck *c
 		// compiler emits conditional moves) and both pools are summed,
 		// one of them with weight zero.
 		if fill {
-			scale[i] = into.scale.of(xi, fi)
+			scale[i] = float32(into.scale.of(xi, fi))
+			cw := ca[i] + cc[i]
+			mass := into.scale.mass[fi : fi+w]
+			for k, v := range xi {
+				mass[k] += cw * math.Abs(v)
+			}
+			into.scale.massY += cw * math.Abs(y[i])
 		}
-		rs := (y[i] - rowDot(xi, g, fi)) * scale[i]
+		rs := (y[i] - rowDot(xi, g, fi)) * float64(scale[i])
 		ku, kd := 0, 0
 		if rs > khi {
 			ku = 1
@@ -530,7 +548,6 @@ func (red *reduction) pass(b []float64, tol, tie float64, into *reduction, ck *c
 	obj = (sumAbs + sumLin) / 2
 	if check {
 		ck.dual += yd
-		ck.dualAbs += ydAbs
 	}
 	if into != nil {
 		into.scale.filled = true

@@ -37,7 +37,8 @@ func writeAPIError(w http.ResponseWriter, status int, field, msg string) {
 }
 
 // writeInputError answers err: an *inputError as 400 naming its field,
-// an oversized body as 413, anything else as 400 about the body.
+// an oversized body as 413, a body too slow as 408, a failed audit log as
+// 500, anything else as 400 about the body.
 func writeInputError(w http.ResponseWriter, err error) {
 	var ie *inputError
 	var mb *http.MaxBytesError
@@ -45,6 +46,10 @@ func writeInputError(w http.ResponseWriter, err error) {
 	case errors.As(err, &mb):
 		writeAPIError(w, http.StatusRequestEntityTooLarge, bodyField,
 			fmt.Sprintf("request body is larger than the limit of %d bytes", mb.Limit))
+	case errors.Is(err, errSlowBody):
+		writeAPIError(w, http.StatusRequestTimeout, bodyField, err.Error())
+	case errors.Is(err, errAudit):
+		writeAuditError(w, err)
 	case errors.As(err, &ie):
 		writeAPIError(w, http.StatusBadRequest, ie.Field, ie.Msg)
 	default:
@@ -159,15 +164,20 @@ func decodeItem(raw []byte, prefix string) (*measurement, error) {
 func decodeScoreBody(body io.Reader) (items []*measurement, list bool, err error) {
 	raw, err := io.ReadAll(body)
 	if err != nil {
-		var mb *http.MaxBytesError
-		if errors.As(err, &mb) {
+		if bodyStatus(err) != 0 {
 			return nil, false, err
 		}
-		return nil, false, fieldErr(bodyField, "reading the body: %v", err)
+		return nil, false, fieldErr(bodyField, "%v", err)
+	}
+	valid := json.Valid(raw)
+	if valid {
+		if key, dup := duplicateKey(raw); dup {
+			return nil, false, fieldErr(key, "given twice (keys are matched without regard to case); give each field once")
+		}
 	}
 	// The common request, one well-formed object, is decoded once; anything
 	// else takes the slower path that names what is wrong.
-	if t := bytes.TrimSpace(raw); len(t) > 0 && t[0] == '{' && json.Valid(t) {
+	if t := bytes.TrimSpace(raw); valid && len(t) > 0 && t[0] == '{' {
 		m, err := decodeItem(t, "")
 		if err != nil {
 			return nil, false, err
@@ -214,6 +224,11 @@ func (h *handler) handleScore(w http.ResponseWriter, r *http.Request) {
 	if !allow(w, r, http.MethodPost) {
 		return
 	}
+	if !isJSON(r.Header.Get("Content-Type")) {
+		writeAPIError(w, http.StatusUnsupportedMediaType, ctypeField,
+			"send the measurements as JSON with Content-Type: application/json")
+		return
+	}
 	items, list, err := decodeScoreBody(r.Body)
 	if err != nil {
 		writeInputError(w, err)
@@ -231,7 +246,10 @@ func (h *handler) handleScore(w http.ResponseWriter, r *http.Request) {
 		}
 	}
 	h.cat.addChanges(items, out)
-	h.audit.record("api", out...)
+	if err := h.audit.record("api", out...); err != nil {
+		writeAuditError(w, err)
+		return
+	}
 	if list {
 		writeJSON(w, http.StatusOK, out)
 		return
@@ -353,13 +371,16 @@ func (h *handler) handleChart(w http.ResponseWriter, r *http.Request) {
 		}
 		pts = append(pts, point{Age: a, Value: v, Z: s.Z})
 	}
-	svg, err := chartSVG(ref, st, pts)
+	svg, err := chartSVG(ref, st, pts, apiChart)
 	if err != nil {
 		writeAPIError(w, http.StatusBadRequest, "age", err.Error())
 		return
 	}
 	if len(pts) > 0 {
-		h.audit.recordChart(h.cat.names[i], st.Name, pts)
+		if err := h.audit.recordChart(h.cat.names[i], st.Name, pts); err != nil {
+			writeAuditError(w, err)
+			return
+		}
 	}
 	w.Header().Set("Content-Type", "image/svg+xml")
 	w.Header().Set("Content-Length", strconv.Itoa(len(svg)))

@@ -30,6 +30,11 @@ const maxBatchJobs = 2
 // about the time a batch of a few MB takes to score.
 const batchRetryAfter = "5"
 
+// auditBatch is how many scored rows of a batch are audited and written at
+// once: one audit write per row would cost a system call each, and a batch
+// bounds what is held.
+const auditBatch = 1000
+
 // batchJob is a batch file ready to score: its header is read and checked,
 // so every file-level problem has been answered before the first byte of
 // the scored file is written.
@@ -77,33 +82,71 @@ func (h *handler) startBatch(name string, data []byte, ref int, opt *intake.Opti
 	return &batchJob{h: h, ref: ref, r: r, rd: rd}, nil
 }
 
-// write scores the rows one at a time and writes the file back as
-// `growband score --in` does: every row echoed with z, centile and flag
-// added, a row that cannot be scored keeping empty z and centile and the
-// reason in flag. Memory stays bounded whatever the number of rows. A
-// problem met after the answer has begun (a damaged workbook) aborts the
-// connection, so that a client never takes a truncated file for a whole one.
-func (j *batchJob) write(w io.Writer) {
+// write scores the rows and writes the file back as `growband score --in`
+// does: every row echoed with z, centile and flag added, a row that cannot
+// be scored keeping empty z and centile and the reason in flag. Rows go out
+// auditBatch at a time, each batch after its audit lines are written, so
+// memory stays bounded whatever the number of rows. begin is called before
+// the first byte is written (to set the answer's headers).
+//
+// A problem met before anything is written (the audit log cannot be
+// written, a damaged workbook) is returned. One met after the answer has
+// begun aborts the connection, so that a client never takes a truncated
+// file for a whole one; the log says why.
+func (j *batchJob) write(w io.Writer, begin func()) error {
 	defer j.rd.Close()
-	cw := scorefile.NewCSVWriter(w, j.rd.Header(), false)
+	var (
+		cw    *scorefile.CSVWriter
+		rows  []scorefile.Row
+		audit []result
+	)
+	fail := func(err error) error {
+		if cw == nil {
+			return err
+		}
+		j.h.logf("batch upload aborted after the answer began: %v", err)
+		panic(http.ErrAbortHandler)
+	}
+	flush := func() error {
+		if err := j.h.audit.record("batch", audit...); err != nil {
+			return fail(err)
+		}
+		if cw == nil {
+			begin()
+			cw = scorefile.NewCSVWriter(w, j.rd.Header(), false)
+		}
+		for _, o := range rows {
+			cw.Write(o)
+		}
+		rows, audit = rows[:0], audit[:0]
+		return nil
+	}
 	for {
 		rec, err := j.rd.Next()
 		if err == io.EOF {
 			break
 		}
 		if err != nil {
-			j.h.logf("batch upload failed after the answer began: %v", errors.Unwrap(err))
-			panic(http.ErrAbortHandler)
+			return fail(fieldErr(fileField, "%v", err))
 		}
 		o := scorefile.ScoreRecord(j.r, rec, nil)
-		cw.Write(o)
+		rows = append(rows, o)
 		if o.OK && j.h.audit != nil {
-			j.h.audit.record("batch", j.result(&o))
+			audit = append(audit, j.result(&o))
+		}
+		if len(rows) == auditBatch {
+			if err := flush(); err != nil {
+				return err
+			}
 		}
 	}
-	if err := cw.Flush(); err != nil {
-		panic(http.ErrAbortHandler)
+	if err := flush(); err != nil {
+		return err
 	}
+	if err := cw.Flush(); err != nil {
+		return fail(err)
+	}
+	return nil
 }
 
 // result is a scored row as the audit log keeps it.
@@ -176,8 +219,12 @@ func (h *handler) handleBatchAPI(w http.ResponseWriter, r *http.Request) {
 		writeInputError(w, err)
 		return
 	}
-	w.Header().Set("Content-Type", "text/csv; charset=utf-8")
-	job.write(w)
+	err = job.write(w, func() { w.Header().Set("Content-Type", "text/csv; charset=utf-8") })
+	if errors.Is(err, errAudit) {
+		writeAuditError(w, err)
+	} else if err != nil {
+		writeInputError(w, err)
+	}
 }
 
 // upload is the batch form as sent.
@@ -269,9 +316,13 @@ func (h *handler) handleBatchForm(w http.ResponseWriter, r *http.Request) {
 	if base == "" || base == "." || base == "_" {
 		base = "batch"
 	}
-	w.Header().Set("Content-Type", "text/csv; charset=utf-8")
-	w.Header().Set("Content-Disposition", fmt.Sprintf("attachment; filename=%q", base+"-scored.csv"))
-	job.write(w)
+	err = job.write(w, func() {
+		w.Header().Set("Content-Type", "text/csv; charset=utf-8")
+		w.Header().Set("Content-Disposition", fmt.Sprintf("attachment; filename=%q", base+"-scored.csv"))
+	})
+	if err != nil {
+		h.renderBatchError(w, pd, err)
+	}
 }
 
 // uploadName is the uploaded file's base name for messages, "upload" when
@@ -291,6 +342,8 @@ func (h *handler) renderBatchError(w http.ResponseWriter, pd *pageData, err erro
 	case errors.As(err, &mb):
 		status = http.StatusRequestEntityTooLarge
 		pd.BatchErr = fmt.Sprintf("the file is larger than the limit of %d MB", mb.Limit>>20)
+	case failStatus(err) != 0:
+		status, pd.BatchErr = failStatus(err), err.Error()
 	case errors.As(err, &ie):
 		pd.BatchErr = ie.Msg
 	default:

@@ -130,6 +130,7 @@ func batchMemoryChild(t *testing.T) {
 	before := procStatus(t, "VmRSS")
 	req := httptest.NewRequest(http.MethodPost, "/api/v1/batch?reference=weight", &rowSource{n: memRows})
 	req.ContentLength = size
+	req.Host = "127.0.0.1"
 	w := &countingWriter{header: http.Header{}}
 	h.ServeHTTP(w, req)
 	if w.status != 0 && w.status != http.StatusOK {

@@ -101,7 +101,7 @@ func TestBrowser(t *testing.T) {
 	}
 	page := srv.URL + "/?" + q.Encode()
 	dom := chromium(t, "--dump-dom", page)
-	cells := regexp.MustCompile(`<td class="num z" data-z="">([^<]*)</td>`).FindAllStringSubmatch(dom, -1)
+	cells := regexp.MustCompile(`<td class="num z" data-z=""[^>]*>([^<]*)</td>`).FindAllStringSubmatch(dom, -1)
 	if len(cells) != len(visits) {
 		t.Fatalf("browser shows %d z-scores, want %d; DOM starts %.500s", len(cells), len(visits), dom)
 	}

@@ -4,6 +4,8 @@ import (
 	"bytes"
 	"fmt"
 
+	"gonum.org/v1/plot/vg"
+
 	"growband/curve"
 	"growband/internal/refchart"
 	"growband/render"
@@ -17,6 +19,28 @@ const chartAges = 121
 // longer trajectories would be cluttered by labels.
 const maxChartLabels = 8
 
+// chartSize is the size a chart is drawn at, its base font size, and
+// whether it carries the caution (the page shows it beside the chart). The
+// SVG is scaled to the width of its box on the page, so the font size on
+// screen is the base size times that width over the drawn width.
+type chartSize struct {
+	width, height, font vg.Length
+	noCaution           bool
+}
+
+// Chart sizes. The API's chart has render's defaults. The page's charts are
+// drawn near the size they are shown at, so that their smallest text (the
+// notes beside a child's points, 0.72 of the base size) stays at least
+// 11 px on screen: the wide chart is shown from a window of 38rem (608 px)
+// up, in a box at least 536 px wide (536/420 * 0.72 * 13 = 11.9 px); the
+// phone chart below that, in a box at least 280 px wide from a window of
+// 326 px (280/235 * 0.72 * 13 = 11.2 px). style.css holds the breakpoint.
+var (
+	apiChart   = chartSize{}
+	pageChart  = chartSize{width: 420, height: 300, font: 13, noCaution: true}
+	phoneChart = chartSize{width: 235, height: 225, font: 13, noCaution: true}
+)
+
 // point is one measurement of a child drawn on the chart.
 type point struct {
 	Age, Value, Z float64
@@ -24,12 +48,15 @@ type point struct {
 
 // chartSVG draws the centile chart of one stratum with the child's points
 // (ages inside the stratum's range) as a trajectory, and returns the SVG.
-func chartSVG(r *curve.Reference, st *curve.Stratum, pts []point) ([]byte, error) {
+func chartSVG(r *curve.Reference, st *curve.Stratum, pts []point, size chartSize) ([]byte, error) {
 	c, _, err := refchart.Centiles(r, st, &refchart.Options{Points: chartAges})
 	if err != nil {
 		return nil, fmt.Errorf("centile table: %w", err)
 	}
 	c.Caution = cautionOf(r)
+	if size.noCaution {
+		c.Caution = ""
+	}
 	if len(pts) > 0 {
 		kid := render.Child{Label: "child"}
 		for _, p := range pts {
@@ -42,12 +69,16 @@ func chartSVG(r *curve.Reference, st *curve.Stratum, pts []point) ([]byte, error
 		}
 		c.Children = []render.Child{kid}
 	}
-	fig, err := render.CentileChart(c)
+	var opts []render.Option
+	if size.font > 0 {
+		opts = append(opts, render.WithFontSize(size.font))
+	}
+	fig, err := render.CentileChart(c, opts...)
 	if err != nil {
 		return nil, err
 	}
 	var buf bytes.Buffer
-	if err := render.Write(&buf, fig, "svg", 0, 0); err != nil {
+	if err := render.Write(&buf, fig, "svg", size.width, size.height); err != nil {
 		return nil, err
 	}
 	return buf.Bytes(), nil

@@ -15,6 +15,14 @@
 // address unless told otherwise, and every page and asset it serves is
 // embedded in the program: nothing is fetched from elsewhere.
 //
+// Requests must name this server in their Host header (a loopback name, the
+// listening address or Options.Hosts), which defeats DNS rebinding; a post
+// that a browser marks as coming from a page of another origin (Origin,
+// Referer or Sec-Fetch-Site) is refused, and the score API takes JSON only
+// as application/json, without repeated keys. A request whose audit lines
+// cannot be written fails. Answers are UTF-8 throughout, and the CSV files
+// it writes pass every cell through csvsafe.Cell.
+//
 // Endpoints:
 //
 //	GET  /                      the page (also renders a GET query, for links)

@@ -5,14 +5,13 @@ import (
 	"fmt"
 )
 
-// Errors returned by RunServe and Serve. They are wrapped with context; test
-// with errors.Is.
+// Errors returned by Serve. They are wrapped with context; test with
+// errors.Is.
 var (
-	// ErrUsage: bad command-line flags or arguments.
-	ErrUsage = errors.New("clinic: bad usage")
-	// ErrAddr: an address that cannot be listened on, or a non-loopback
-	// address without Options.AllowRemote.
+	// ErrAddr: an address that cannot be listened on.
 	ErrAddr = errors.New("clinic: unusable listen address")
+	// ErrRemote: a non-loopback address without Options.AllowRemote.
+	ErrRemote = errors.New("clinic: listen address reachable from other machines not allowed")
 	// ErrReferences: no reference, a reference that cannot be loaded, or two
 	// references with the same name.
 	ErrReferences = errors.New("clinic: unusable references")

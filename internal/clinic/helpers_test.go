@@ -94,6 +94,7 @@ func newTestHandler(t testing.TB, opt Options, two bool) (*handler, *curve.Refer
 func do(t testing.TB, h http.Handler, method, target, ctype string, body io.Reader) *httptest.ResponseRecorder {
 	t.Helper()
 	req := httptest.NewRequest(method, target, body)
+	req.Host = testHost // httptest's example.com would be refused
 	if ctype != "" {
 		req.Header.Set("Content-Type", ctype)
 	}
@@ -101,6 +102,9 @@ func do(t testing.TB, h http.Handler, method, target, ctype string, body io.Read
 	h.ServeHTTP(rec, req)
 	return rec
 }
+
+// testHost is the Host of the test requests: the default address.
+const testHost = DefaultAddr
 
 func postJSON(t testing.TB, h http.Handler, body string) *httptest.ResponseRecorder {
 	t.Helper()

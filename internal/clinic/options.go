@@ -2,6 +2,7 @@ package clinic
 
 import (
 	"io"
+	"strings"
 	"time"
 )
 
@@ -32,19 +33,39 @@ type Options struct {
 	// loaded references). Each is named by its file name without the
 	// extension.
 	Refs []string
-	// Addr is the listen address; "" means DefaultAddr.
+	// Addr is the listen address; "" means DefaultAddr. Requests may name
+	// its host in their Host header.
 	Addr string
 	// AllowRemote permits a non-loopback listen address. Without it Serve
 	// refuses one.
 	AllowRemote bool
+	// Hosts are the host names (or addresses) that requests from other
+	// machines may name in their Host header, besides the loopback names and
+	// the host of Addr; requests naming any other host are refused, which
+	// defeats DNS rebinding.
+	Hosts []string
 	// Audit, when not nil, receives one JSON line per scored measurement
-	// (children's data). nil keeps nothing.
+	// (children's data). nil keeps nothing. A request whose lines cannot be
+	// written fails with 500 and its results are not shown.
 	Audit io.Writer
+	// AuditName names the audit log in messages (a file name, never a
+	// path); "" means "the audit log".
+	AuditName string
 	// Log receives the server's messages, "growband: ..."; they never hold
 	// measurements. nil means silence.
 	Log io.Writer
 	// MaxBody is the largest request body in bytes; 0 means DefaultMaxBody.
 	MaxBody int64
+
+	// files are the reference files Serve loaded, shown by base name.
+	files []string
+}
+
+func (o *Options) auditName() string {
+	if strings.TrimSpace(o.AuditName) == "" {
+		return "the audit log"
+	}
+	return "the audit log " + o.AuditName
 }
 
 func (o *Options) maxBody() int64 {

@@ -2,14 +2,16 @@ package clinic
 
 import (
 	"bytes"
-	"errors"
+	"cmp"
 	"fmt"
 	"html/template"
 	"math"
 	"net/http"
+	"path/filepath"
 	"sort"
 	"strconv"
 	"strings"
+	"unicode/utf8"
 
 	"growband/curve"
 )
@@ -18,7 +20,7 @@ import (
 const maxVisits = 60
 
 // pageTemplate is the page, parsed once from the embedded assets.
-var pageTemplate = template.Must(template.New("page.html").ParseFS(assets, "assets/page.html"))
+var pageTemplate = template.Must(template.New("page.html").ParseFS(templates, "templates/page.html"))
 
 // flagText explains each flag on the page.
 var flagText = map[string]string{
@@ -32,6 +34,9 @@ var flagText = map[string]string{
 
 type refView struct {
 	Name, Measure, Unit, AgeUnit, Caution, Created string
+	Source                                         string // file name the reference was loaded from, when known
+	LMS                                            bool   // an LMS table, not fitted from data here
+	StrataNames, Range                             string // all strata, the ages they cover together
 	Strata                                         []stratumView
 	Selected                                       bool
 }
@@ -39,6 +44,7 @@ type refView struct {
 type stratumView struct {
 	Name, Range string
 	N           int
+	LMSAges     int // tabulated ages of an LMS-table stratum; 0 for a fitted one
 	Selected    bool
 }
 
@@ -70,9 +76,12 @@ type pageData struct {
 	Results    []resultView
 	Scored     bool
 	HasErrors  bool
+	Latest     *resultView // the last scored visit, shown first
 	Chart      template.HTML
+	ChartSmall template.HTML // the chart drawn for phone screens
 	ChartErr   string
 	BatchErr   string
+	Fail       string // the request failed on the server's side (status 500)
 	Caution    string
 }
 
@@ -93,8 +102,23 @@ func (h *handler) newPage(refName string) *pageData {
 		if !r.Created.IsZero() {
 			v.Created = r.Created.UTC().Format("2006-01-02")
 		}
+		if i < len(h.cat.files) {
+			v.Source = filepath.Base(h.cat.files[i])
+		}
+		lo, hi := math.Inf(1), math.Inf(-1)
+		var names []string
 		for _, st := range r.Strata {
-			v.Strata = append(v.Strata, stratumView{Name: st.Name, N: st.N, Range: formatRange(st.AgeMin, st.AgeMax, r.AgeUnit)})
+			sv := stratumView{Name: st.Name, N: st.N, Range: formatRange(st.AgeMin, st.AgeMax, r.AgeUnit)}
+			if st.LMS != nil {
+				sv.LMSAges, v.LMS = len(st.LMS.Ages), true
+			}
+			v.Strata = append(v.Strata, sv)
+			lo, hi = math.Min(lo, st.AgeMin), math.Max(hi, st.AgeMax)
+			names = append(names, cmp.Or(st.Name, "(one group)"))
+		}
+		v.StrataNames = strings.Join(names, ", ")
+		if len(r.Strata) > 0 {
+			v.Range = formatRange(lo, hi, r.AgeUnit)
 		}
 		pd.Refs = append(pd.Refs, v)
 	}
@@ -121,16 +145,18 @@ func (h *handler) handlePage(w http.ResponseWriter, r *http.Request) {
 	}
 	if err := r.ParseForm(); err != nil {
 		pd := h.newPage("")
-		status := http.StatusBadRequest
-		var mb *http.MaxBytesError
-		if errors.As(err, &mb) {
-			status = http.StatusRequestEntityTooLarge
-		}
+		status := cmp.Or(bodyStatus(err), http.StatusBadRequest)
 		pd.RefErr = "the form could not be read: " + err.Error()
 		h.render(w, status, pd)
 		return
 	}
 	f := r.Form
+	for _, vs := range f {
+		for i, v := range vs {
+			// Shown again on the page: never raw bytes that are not UTF-8.
+			vs[i] = strings.ToValidUTF8(v, "\uFFFD")
+		}
+	}
 	pd := h.newPage(f.Get("ref"))
 	ages, meas, vals := f["age"], f["measured"], f["value"]
 	n := max(len(ages), len(meas), len(vals))
@@ -166,7 +192,10 @@ func (h *handler) handlePage(w http.ResponseWriter, r *http.Request) {
 		pd.Ref.Strata[i].Selected = pd.Ref.Strata[i].Name == pd.Stratum
 	}
 	status := http.StatusOK
-	if pd.HasErrors {
+	switch {
+	case pd.Fail != "":
+		status = http.StatusInternalServerError
+	case pd.HasErrors:
 		status = http.StatusUnprocessableEntity
 	}
 	h.render(w, status, pd)
@@ -256,13 +285,22 @@ func (h *handler) scorePage(pd *pageData, rows []rowView) {
 		}
 		pd.Results = append(pd.Results, v)
 	}
-	h.audit.record("page", audit...)
-	svg, err := chartSVG(ref, st, pts)
+	if err := h.audit.record("page", audit...); err != nil {
+		pd.Fail, pd.Scored, pd.Results = err.Error(), false, nil
+		return
+	}
+	pd.Latest = &pd.Results[len(pd.Results)-1]
+	big, err := chartSVG(ref, st, pts, pageChart)
+	if err == nil {
+		var small []byte
+		small, err = chartSVG(ref, st, pts, phoneChart)
+		pd.ChartSmall = template.HTML(inlineSVG(small)) // gonum's SVG writer escapes all text
+	}
 	if err != nil {
 		pd.ChartErr = "the chart could not be drawn: " + err.Error()
 		return
 	}
-	pd.Chart = template.HTML(inlineSVG(svg)) // gonum's SVG writer escapes all text
+	pd.Chart = template.HTML(inlineSVG(big))
 }
 
 // placeError puts err beside the field it concerns on row rv.
@@ -335,7 +373,13 @@ func (h *handler) render(w http.ResponseWriter, status int, pd *pageData) {
 		http.Error(w, "growband: internal error", http.StatusInternalServerError)
 		return
 	}
+	b := buf.Bytes()
+	if !utf8.Valid(b) {
+		// A message quoting bytes of the request that are not UTF-8: the
+		// page is declared UTF-8, so they are replaced, never sent raw.
+		b = bytes.ToValidUTF8(b, []byte("\uFFFD"))
+	}
 	w.Header().Set("Content-Type", "text/html; charset=utf-8")
 	w.WriteHeader(status)
-	_, _ = w.Write(buf.Bytes())
+	_, _ = w.Write(b)
 }

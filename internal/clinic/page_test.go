@@ -8,6 +8,8 @@ import (
 	"mime/multipart"
 	"net/http"
 	"net/url"
+	"os"
+	"path/filepath"
 	"regexp"
 	"strconv"
 	"strings"
@@ -18,7 +20,7 @@ import (
 )
 
 // zCells finds the z-scores shown in the results table.
-var zCells = regexp.MustCompile(`<td class="num z" data-z>([^<]*)</td>`)
+var zCells = regexp.MustCompile(`<td class="num z" data-z[^>]*>([^<]*)</td>`)
 
 // pageZ reads the shown z-scores back as numbers (the page writes a true
 // minus sign).
@@ -84,11 +86,11 @@ func TestPageScore(t *testing.T) {
 	}
 	dz := fmt.Sprintf("%.2f", want[1]-want[0])
 	dz = strings.Replace(dz, "-", "\u2212", 1)
-	if !strings.Contains(body, `<td class="num">`+dz+`</td>`) {
+	if !strings.Contains(body, `<td class="num" data-label="Change in z">`+dz+`</td>`) {
 		t.Errorf("change in z %s not shown", dz)
 	}
-	if !strings.Contains(body, "<figure class=\"chart\"><svg") {
-		t.Error("no inline chart")
+	if strings.Count(body, "<svg") != 2 || !strings.Contains(body, `<div class="wide"><svg`) || !strings.Contains(body, `<div class="small"><svg`) {
+		t.Error("no inline charts, for wide screens and for phones")
 	}
 	if strings.Contains(body, "<?xml") {
 		t.Error("XML declaration inside the page")
@@ -269,5 +271,88 @@ func TestBatchForm(t *testing.T) {
 	rec = do(t, h, http.MethodPost, "/batch", "text/plain", strings.NewReader("x"))
 	if rec.Code != http.StatusBadRequest {
 		t.Errorf("not multipart: status %d", rec.Code)
+	}
+}
+
+// TestPageResultFirst checks the page's structure behind "the result is on
+// screen at once": the result section comes first in the page, and the form
+// posts to the #result fragment, so a browser without script lands on it.
+func TestPageResultFirst(t *testing.T) {
+	h, _ := newTestHandler(t, Options{}, false)
+	rec := postForm(t, h, url.Values{"stratum": {"F"}, "age": {"7"}, "value": {"6.3"}})
+	body := rec.Body.String()
+	res := strings.Index(body, `id="result"`)
+	for _, later := range []string{`id="ref-h"`, `id="child-form"`, `id="batch"`} {
+		if i := strings.Index(body, later); res < 0 || i < res {
+			t.Errorf("%s comes before the result (%d, %d)", later, i, res)
+		}
+	}
+	if !strings.Contains(body, `<form method="post" action="/#result" id="child-form"`) {
+		t.Error("the child form does not post to #result")
+	}
+	if strings.Count(body, `id="result"`) != 1 {
+		t.Error(`id="result" given twice`)
+	}
+	// With errors and no result, #result is the form with its notes.
+	bad := postForm(t, h, url.Values{"stratum": {"F"}, "age": {"7"}, "value": {"6..3"}}).Body.String()
+	if strings.Count(bad, `id="result"`) != 1 || !strings.Contains(bad, `<section class="card child" aria-labelledby="child-h" id="result">`) {
+		t.Error("a form with errors is not the #result target")
+	}
+	// z = (6.3 - (3.4 + 0.35*7))/0.8 = 0.5625 by the hand reference (exact
+	// identity); its centile Phi(0.5625) = 71.3 (from memory).
+	if plain := html.UnescapeString(body); !strings.Contains(plain, `data-latest-z>+0.56<`) || !strings.Contains(plain, `data-latest-centile>71.3<`) {
+		t.Errorf("latest z and centile not shown first: %.300s", body[res:])
+	}
+}
+
+// TestPrintFieldsNeverSent checks that the child identifier and the date
+// printed cannot be submitted: their inputs have no name and lie outside
+// every form. (TestBrowserResultOnScreen also types into them, submits the
+// form and checks what the server received.)
+func TestPrintFieldsNeverSent(t *testing.T) {
+	h, _ := newTestHandler(t, Options{}, false)
+	body := postForm(t, h, url.Values{"stratum": {"F"}, "age": {"7"}, "value": {"6.3"}}).Body.String()
+	for _, id := range []string{"print-child", "print-date"} {
+		tag := regexp.MustCompile(`<input id="` + id + `"[^>]*>`).FindString(body)
+		if tag == "" {
+			t.Fatalf("no %s input", id)
+		}
+		if strings.Contains(tag, "name=") || strings.Contains(tag, "form=") {
+			t.Errorf("%s can be submitted: %s", id, tag)
+		}
+		i := strings.Index(body, tag)
+		if opened, closed := strings.Count(body[:i], "<form"), strings.Count(body[:i], "</form>"); opened != closed {
+			t.Errorf("%s lies inside a form", id)
+		}
+	}
+}
+
+// TestPageLMSTable serves a reference read from an LMS table: the page says
+// so, with the source file, strata and age range, and never "Children
+// measured 0".
+func TestPageLMSTable(t *testing.T) {
+	dir := t.TempDir()
+	p := filepath.Join(dir, "growth.csv")
+	// An invented two-stratum LMS table.
+	table := "# age_unit = months\n# measure = length\n# unit = cm\nsex,age,L,M,S\nF,0,1,49.1,0.038\nF,24,1,86.4,0.035\nM,0,1,49.9,0.038\nM,24,1,87.8,0.035\n"
+	if err := os.WriteFile(p, []byte(table), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	refs, names, err := loadRefs([]string{p})
+	if err != nil {
+		t.Fatal(err)
+	}
+	h := NewHandler(refs, names, Options{files: []string{p}})
+	body := do(t, h, http.MethodGet, "/", "", nil).Body.String()
+	for _, want := range []string{"LMS table", "growth.csv", "F, M", "0 to 24 months", "Tabulated ages"} {
+		if !strings.Contains(body, want) {
+			t.Errorf("page lacks %q", want)
+		}
+	}
+	if strings.Contains(body, "Children measured") || strings.Contains(body, "<td>0</td>") {
+		t.Error("an LMS table shown as if fitted from 0 children")
+	}
+	if strings.Contains(body, dir) {
+		t.Error("the page shows the server's directory")
 	}
 }

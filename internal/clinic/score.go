@@ -23,6 +23,7 @@ const flagDegenerate = "degenerate"
 type catalog struct {
 	refs   []*curve.Reference
 	names  []string
+	files  []string // the file each reference was loaded from, when known
 	byName map[string]int
 }
 

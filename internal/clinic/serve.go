@@ -3,17 +3,14 @@ package clinic
 import (
 	"context"
 	"errors"
-	"flag"
 	"fmt"
 	"io"
 	"log"
 	"net"
 	"net/http"
-	"os"
-	"os/signal"
 	"path/filepath"
+	"slices"
 	"strings"
-	"syscall"
 
 	"growband/curve"
 )
@@ -21,9 +18,12 @@ import (
 // Serve loads opt.Refs and serves the page and the API on opt.Addr until ctx
 // is done, then shuts down gracefully: requests in progress get up to 10 s to
 // finish. It refuses a non-loopback address unless opt.AllowRemote is set,
-// and warns on opt.Log when it is. Errors wrap ErrReferences (no reference,
-// one that cannot be loaded, two with the same name) or ErrAddr; a nil error
-// means a clean shutdown.
+// and warns on opt.Log when it is. Requests must name in their Host header a
+// loopback name, the listening address (any address of this machine when
+// listening on all interfaces) or one of opt.Hosts (see NewHandler).
+// Errors wrap ErrReferences (no reference, one that cannot be loaded, two
+// with the same name), ErrRemote or ErrAddr; a nil error means a clean
+// shutdown.
 func Serve(ctx context.Context, opt Options) error {
 	refs, names, err := loadRefs(opt.Refs)
 	if err != nil {
@@ -41,15 +41,26 @@ func Serve(ctx context.Context, opt Options) error {
 	if !isLoopback(host) {
 		if !opt.AllowRemote {
 			return fmt.Errorf("%w: %s is not a loopback address; the page has no login and no encryption, "+
-				"so allow other machines explicitly if that is really wanted", ErrAddr, addr)
+				"so allow other machines explicitly if that is really wanted", ErrRemote, addr)
 		}
 		fmt.Fprintf(lg, "growband: warning: listening on %s, reachable from other machines: "+
 			"the page has no login and no encryption; use it only on a trusted network\n", addr)
+		if len(opt.Hosts) == 0 {
+			fmt.Fprintf(lg, "growband: other machines must address the server by an IP address: "+
+				"no host name was given for them\n")
+		}
 	}
 	ln, err := net.Listen("tcp", addr)
 	if err != nil {
 		return fmt.Errorf("%w: %v", ErrAddr, err)
 	}
+	opt.Hosts = append(slices.Clone(opt.Hosts), ln.Addr().String())
+	if ip := net.ParseIP(host); host == "" || ip != nil && ip.IsUnspecified() {
+		// Listening on every interface: each of this machine's addresses
+		// names it. An address, unlike a name, cannot be rebound.
+		opt.Hosts = append(opt.Hosts, interfaceAddrs()...)
+	}
+	opt.files = opt.Refs
 	srv := &http.Server{
 		Handler:           NewHandler(refs, names, opt),
 		ReadHeaderTimeout: readHeaderTimeout,
@@ -75,6 +86,21 @@ func Serve(ctx context.Context, opt Options) error {
 	}
 	fmt.Fprintln(lg, "growband: stopped")
 	return err
+}
+
+// interfaceAddrs lists the IP addresses of this machine's interfaces.
+func interfaceAddrs() []string {
+	addrs, err := net.InterfaceAddrs()
+	if err != nil {
+		return nil
+	}
+	var out []string
+	for _, a := range addrs {
+		if n, ok := a.(*net.IPNet); ok {
+			out = append(out, n.IP.String())
+		}
+	}
+	return out
 }
 
 // isLoopback reports whether host names only this machine. An empty host
@@ -110,74 +136,4 @@ func loadRefs(paths []string) ([]*curve.Reference, []string, error) {
 		refs[i], names[i] = r, name
 	}
 	return refs, names, nil
-}
-
-// refList is the repeatable --ref flag.
-type refList []string
-
-func (l *refList) String() string { return strings.Join(*l, ",") }
-func (l *refList) Set(s string) error {
-	if strings.TrimSpace(s) == "" {
-		return errors.New("empty file name")
-	}
-	*l = append(*l, s)
-	return nil
-}
-
-const serveUsage = `usage: growband serve --ref FILE [--ref FILE ...] [--addr HOST:PORT] [--allow-remote] [--audit-log FILE]
-
-Serves the clinic page and the scoring API (under /api/v1/) for the given
-reference files until interrupted (Ctrl-C or SIGTERM). It keeps no children's
-data: nothing is written to disk and nothing is logged unless --audit-log asks.
-
-Flags:
-`
-
-// RunServe is the "growband serve" subcommand: it parses args, serves until
-// SIGINT or SIGTERM and returns nil after a clean shutdown. Messages go to
-// stderr as "growband: ..."; stdout is not used. -h prints the usage and
-// returns flag.ErrHelp; bad flags return an error wrapping ErrUsage; other
-// errors wrap ErrReferences or ErrAddr, or are audit-log file errors.
-func RunServe(args []string, stdout, stderr io.Writer) error {
-	fs := flag.NewFlagSet("serve", flag.ContinueOnError)
-	fs.SetOutput(stderr)
-	var refs refList
-	opt := Options{Log: stderr}
-	fs.Var(&refs, "ref", "reference `FILE` to serve (repeatable; named by the file name)")
-	fs.StringVar(&opt.Addr, "addr", DefaultAddr, "listen address `HOST:PORT`")
-	fs.BoolVar(&opt.AllowRemote, "allow-remote", false, "allow a non-loopback --addr (no login, no encryption: trusted networks only)")
-	audit := fs.String("audit-log", "", "append every scored measurement as a JSON line to `FILE` (children's data!)")
-	fs.Usage = func() {
-		fmt.Fprint(stderr, serveUsage)
-		fs.PrintDefaults()
-	}
-	if err := fs.Parse(args); err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			return err
-		}
-		return fmt.Errorf("%w: %v", ErrUsage, err)
-	}
-	if fs.NArg() > 0 {
-		return fmt.Errorf("%w: unexpected argument %q (reference files are given with --ref)", ErrUsage, fs.Arg(0))
-	}
-	if len(refs) == 0 {
-		return fmt.Errorf("%w: no reference file given (use --ref FILE)", ErrUsage)
-	}
-	opt.Refs = refs
-	if *audit != "" {
-		f, err := os.OpenFile(*audit, os.O_WRONLY|os.O_CREATE|os.O_APPEND, 0o600)
-		if err != nil {
-			return fmt.Errorf("audit log: %w", err)
-		}
-		fmt.Fprintf(stderr, "growband: audit log %s receives every scored measurement\n", *audit)
-		opt.Audit = f
-		defer func() {
-			if cerr := f.Close(); cerr != nil {
-				fmt.Fprintf(stderr, "growband: audit log: %v\n", cerr)
-			}
-		}()
-	}
-	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
-	defer stop()
-	return Serve(ctx, opt)
 }

@@ -71,6 +71,8 @@ type rawFit struct {
 	Penalty   raw `toml:"penalty"`
 	AgeScale  raw `toml:"age_scale"`
 	AgeOffset raw `toml:"age_offset"`
+	AgeRange  raw `toml:"age_range"`
+	AcceptEdg raw `toml:"accept_edge_problems"`
 	Bootstrap raw `toml:"bootstrap"`
 	Seed      raw `toml:"seed"`
 }

@@ -53,12 +53,16 @@ type Measure struct {
 
 // Fit is the [fit] table: how the centile curves are fitted.
 type Fit struct {
-	Centiles  []float64 // chart centiles in percent, increasing, in (0, 100)
-	Knots     Knots
-	Penalty   Penalty
-	AgeScale  AgeScale
-	Bootstrap int   // bootstrap replicates; 0 = none
-	Seed      int64 // random seed for bootstrap and cross-validation
+	Centiles []float64 // chart centiles in percent, increasing, in (0, 100)
+	Knots    Knots
+	Penalty  Penalty
+	AgeScale AgeScale
+	AgeRange Range // the reference's stated age range; zero = the data's
+	// AcceptEdges is fit.accept_edge_problems: build even when the curves
+	// tie, hook or bend at some age (the problems are reported).
+	AcceptEdges bool
+	Bootstrap   int   // bootstrap replicates; 0 = none
+	Seed        int64 // random seed for bootstrap and cross-validation
 }
 
 // Knots is fit.knots: chosen automatically, a count of interior knots, or
@@ -76,8 +80,9 @@ type Penalty struct {
 	Lambda float64
 }
 
-// AgeScale is fit.age_scale with fit.age_offset. Kind is "identity", "log"
-// (log(age + Shift)) or "power" (age^Power). AutoShift means the fitting
+// AgeScale is fit.age_scale with fit.age_offset. Kind is "auto" (chosen
+// from the data), "identity", "log" (log(age + Shift)) or "power"
+// (age^Power). AutoShift means the fitting
 // code chooses Shift.
 type AgeScale struct {
 	Kind      string

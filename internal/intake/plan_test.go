@@ -37,7 +37,7 @@ func TestPlanDefaults(t *testing.T) {
 	}
 	f := p.Fit
 	if !slices.Equal(f.Centiles, []float64{3, 10, 25, 50, 75, 90, 97}) || !f.Knots.Auto || !f.Penalty.Auto ||
-		f.AgeScale.Kind != "identity" || f.Bootstrap != 0 || f.Seed != 1 {
+		f.AgeScale.Kind != "auto" || f.AgeRange != (Range{}) || f.AcceptEdges || f.Bootstrap != 0 || f.Seed != 1 {
 		t.Errorf("fit %+v", f)
 	}
 	if p.Plausible.Z != 5 || p.Plausible.Age != (Range{0, math.Inf(1)}) || p.Plausible.Value != (Range{}) {
@@ -137,6 +137,9 @@ func TestPlanPolymorphic(t *testing.T) {
 		{`penalty = 0`, func(f Fit) bool { return !f.Penalty.Auto && f.Penalty.Lambda == 0 }},
 		{`penalty = 2.5`, func(f Fit) bool { return f.Penalty == Penalty{Lambda: 2.5} }},
 		{`age_scale = "identity"`, func(f Fit) bool { return f.AgeScale == AgeScale{Kind: "identity"} }},
+		{`age_scale = "auto"`, func(f Fit) bool { return f.AgeScale == AgeScale{Kind: "auto"} }},
+		{`age_range = [0, 60]`, func(f Fit) bool { return f.AgeRange == Range{0, 60} }},
+		{`accept_edge_problems = true`, func(f Fit) bool { return f.AcceptEdges }},
 		{`age_scale = "log"`, func(f Fit) bool { return f.AgeScale == AgeScale{Kind: "log", AutoShift: true} }},
 		{"age_scale = \"log\"\nage_offset = 1", func(f Fit) bool { return f.AgeScale == AgeScale{Kind: "log", Shift: 1} }},
 		{"age_scale = \"log\"\nage_offset = -0.5", func(f Fit) bool { return f.AgeScale == AgeScale{Kind: "log", Shift: -0.5} }},
@@ -304,7 +307,9 @@ func TestPlanBadValues(t *testing.T) {
 		{minimalPlan + "[fit]\nknots = \"many\"\n", `plan.toml:7: fit.knots: want "auto", a count or a list of ages, got the string "many"`},
 		{minimalPlan + "[fit]\npenalty = -1\n", "plan.toml:7: fit.penalty: -1 is negative"},
 		{minimalPlan + "[fit]\npenalty = nan\n", "plan.toml:7: fit.penalty: want a finite number, got NaN"},
-		{minimalPlan + "[fit]\nage_scale = \"sqrt\"\n", `plan.toml:7: fit.age_scale: want "identity", "log" or a power such as 0.5, got the string "sqrt"`},
+		{minimalPlan + "[fit]\nage_scale = \"sqrt\"\n", `plan.toml:7: fit.age_scale: want "auto", "identity", "log" or a power such as 0.5, got the string "sqrt"`},
+		{minimalPlan + "[fit]\nage_range = [0, inf]\n", "plan.toml:7: fit.age_range: both ends must be finite"},
+		{minimalPlan + "[fit]\nage_range = [60, 0]\n", "plan.toml:7: fit.age_range: want [min, max] with min < max"},
 		{minimalPlan + "[fit]\nage_scale = -0.5\n", "plan.toml:7: fit.age_scale: power -0.5 must be positive"},
 		{minimalPlan + "[fit]\nage_offset = 1\n", `plan.toml:7: fit.age_offset: applies only with age_scale = "log"`},
 		{minimalPlan + "[fit]\nage_scale = \"log\"\nage_offset = \"x\"\n", `plan.toml:8: fit.age_offset: want "auto" or a number, got the string "x"`},

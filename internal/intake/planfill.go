@@ -179,7 +179,7 @@ func (d *planDecoder) fit(rf *rawFit) Fit {
 		Centiles: slices.Clone(DefaultCentiles),
 		Knots:    Knots{Auto: true},
 		Penalty:  Penalty{Auto: true},
-		AgeScale: AgeScale{Kind: "identity"},
+		AgeScale: AgeScale{Kind: "auto"},
 		Seed:     DefaultSeed,
 	}
 	if rf.Centiles.set {
@@ -207,10 +207,10 @@ func (d *planDecoder) fit(rf *rawFit) Fit {
 		const key = "fit.age_scale"
 		if s, isStr := rf.AgeScale.v.(string); isStr {
 			switch s {
-			case "identity", "log":
+			case "auto", "identity", "log":
 				f.AgeScale.Kind = s
 			default:
-				d.fail(key, ErrPlanValue, "%s: want \"identity\", \"log\" or a power such as 0.5, got %s", key, describe(s))
+				d.fail(key, ErrPlanValue, "%s: want \"auto\", \"identity\", \"log\" or a power such as 0.5, got %s", key, describe(s))
 			}
 		} else if x, ok := d.num(key, rf.AgeScale); ok {
 			switch {
@@ -237,6 +237,19 @@ func (d *planDecoder) fit(rf *rawFit) Fit {
 		} else if x, ok := d.num(key, rf.AgeOffset); ok {
 			f.AgeScale.Shift, f.AgeScale.AutoShift = x, false
 		}
+	}
+	if rf.AgeRange.set {
+		const key = "fit.age_range"
+		if r, ok := d.rangeVal(key, rf.AgeRange); ok {
+			if math.IsInf(r.Min, 0) || math.IsInf(r.Max, 0) {
+				d.fail(key, ErrPlanValue, "%s: both ends must be finite", key)
+			} else {
+				f.AgeRange = r
+			}
+		}
+	}
+	if rf.AcceptEdg.set {
+		f.AcceptEdges, _ = d.boolean("fit.accept_edge_problems", rf.AcceptEdg)
 	}
 	if rf.Bootstrap.set {
 		n, _ := d.int("fit.bootstrap", rf.Bootstrap, 0, maxBootstrap)

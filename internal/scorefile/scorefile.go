@@ -12,6 +12,7 @@ import (
 	"strings"
 
 	"growband/curve"
+	"growband/internal/csvsafe"
 	"growband/internal/intake"
 )
 
@@ -130,7 +131,9 @@ var Columns = []string{"z", "centile", "flag"}
 // WriteCSV echoes the rows under header with Columns added (and
 // CondColumns before flag when the rows carry conditional scores). A row with
 // fewer cells than the header (one whose quoting could not be read) is
-// padded with empty cells, so that the added columns line up.
+// padded with empty cells, so that the added columns line up. Every cell
+// passes through csvsafe.Cell: a spreadsheet will not run one as a formula,
+// and bytes that are not UTF-8 are replaced.
 func WriteCSV(w io.Writer, header []string, rows []Row) error {
 	cond := len(rows) > 0 && rows[0].Cond != nil
 	cw := NewCSVWriter(w, header, cond)
@@ -156,8 +159,16 @@ func NewCSVWriter(w io.Writer, header []string, cond bool) *CSVWriter {
 	if cond {
 		head = append(head, CondColumns...)
 	}
-	c.cw.Write(append(head, Columns[2:]...))
+	c.cw.Write(safe(append(head, Columns[2:]...)))
 	return c
+}
+
+// safe passes every cell through csvsafe.Cell, in place.
+func safe(cells []string) []string {
+	for i, c := range cells {
+		cells[i] = csvsafe.Cell(c)
+	}
+	return cells
 }
 
 // Write writes one row; errors are reported by Flush.
@@ -174,7 +185,7 @@ func (c *CSVWriter) Write(o Row) {
 		}
 		c.cells = append(c.cells, ZText(z), CentileText(cen))
 	}
-	c.cw.Write(append(c.cells, o.Flag))
+	c.cw.Write(safe(append(c.cells, o.Flag)))
 }
 
 // Flush writes what is buffered and returns the first write error.

@@ -142,6 +142,22 @@ func TestWriteJSON(t *testing.T) {
 	}
 }
 
+// TestWriteCSVNeutralises writes cells a spreadsheet would run as formulas
+// (OWASP's CSV-injection examples, from memory) and bytes that are not
+// UTF-8: they come back quoted and replaced, while negative numbers stay
+// numbers.
+func TestWriteCSVNeutralises(t *testing.T) {
+	var buf strings.Builder
+	rows := []Row{{Fields: []string{"=cmd|' /C calc'!A0", "-1.5", "\xff"}, Z: -1.25, Centile: 10.56, Flag: "@x", OK: true}}
+	if err := WriteCSV(&buf, []string{"+child", "age", "name"}, rows); err != nil {
+		t.Fatal(err)
+	}
+	want := "'+child,age,name,z,centile,flag\n'=cmd|' /C calc'!A0,-1.5,\uFFFD,-1.250,10.56,'@x\n"
+	if buf.String() != want {
+		t.Errorf("got %q, want %q", buf.String(), want)
+	}
+}
+
 func TestCentileTextTails(t *testing.T) {
 	// Centiles of z = 4.9 and -4.9: 100 Phi(z) and its complement (gonum
 	// v0.17.0 distuv.UnitNormal); each prints distinct from 100 and 0.

@@ -35,6 +35,14 @@
     });
   }
 
+  // The date printed defaults to today, on this computer only: the print
+  // fields have no name and lie outside the form, so nothing sends them.
+  var today = document.querySelector("[data-today]");
+  if (today && !today.value) {
+    var d = new Date();
+    today.value = d.getFullYear() + "-" + String(d.getMonth() + 1).padStart(2, "0") + "-" + String(d.getDate()).padStart(2, "0");
+  }
+
   var pr = document.querySelector("[data-print]");
   if (pr) {
     pr.hidden = false;
