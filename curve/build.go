@@ -7,6 +7,8 @@ import (
 	"math"
 	"slices"
 	"strings"
+
+	"growband/internal/ageunit"
 )
 
 // ErrEdge: the fitted curves tie or hook at some age, or bend at an end of
@@ -21,10 +23,6 @@ const DefaultScreenZ = 5
 
 // NoScreen as BuildSettings.ScreenZ turns the implausibility screen off.
 const NoScreen = -1
-
-// daysPerMonth converts the automatic log-age offset between age units
-// (30.4375 = 365.25/12, the intake convention).
-const daysPerMonth = 365.25 / 12
 
 // BuildSettings tune Build. The zero value, and nil, mean the documented
 // defaults.
@@ -184,18 +182,13 @@ func edgeError(problems []EdgeProblem) error {
 }
 
 // autoLogShift is the offset c of log(age + c) chosen for ages: one month
-// in the age unit ("days", "weeks", "months" — also "" — or "years"), plus
-// the youngest age's distance below zero, so that the log spreads the first
-// months without an extreme at birth.
+// in the age unit (any name ageunit.Parse reads; "" or an unknown name is
+// taken as months), plus the youngest age's distance below zero, so that
+// the log spreads the first months without an extreme at birth.
 func autoLogShift(ages []float64, ageUnit string) float64 {
 	month := 1.0
-	switch ageUnit {
-	case "days":
-		month = daysPerMonth
-	case "weeks":
-		month = daysPerMonth / 7
-	case "years":
-		month = 1.0 / 12
+	if u, err := ageunit.Parse(ageUnit); err == nil {
+		month = ageunit.Months.Convert(1, u)
 	}
 	lo := 0.0
 	for _, a := range ages {

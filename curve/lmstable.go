@@ -13,6 +13,8 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+
+	"growband/internal/ageunit"
 )
 
 // Values of Reference.Tails.
@@ -39,6 +41,16 @@ const lmsSeriesX = 1e-3
 // lmsDefaultCentiles are the chart centiles of a table, in percent: the usual
 // chart set (common practice), the same as Fit's default.
 var lmsDefaultCentiles = []float64{3, 10, 25, 50, 75, 90, 97}
+
+// sameAgeUnit reports whether two age unit names mean the same unit.
+func sameAgeUnit(a, b string) bool {
+	ua, errA := ageunit.Parse(a)
+	ub, errB := ageunit.Parse(b)
+	if errA != nil || errB != nil {
+		return strings.EqualFold(a, b)
+	}
+	return ua == ub
+}
 
 // LMSTableOptions tune LoadLMSTable. The zero value, and nil, mean: age unit,
 // measure, unit and tails from the file's comment lines, the stratum column
@@ -140,7 +152,7 @@ func LoadLMSTable(rd io.Reader, name string, opt *LMSTableOptions) (*Reference, 
 		switch {
 		case given == "":
 			return v.value, nil
-		case ok && key == "age_unit" && !strings.EqualFold(v.value, given):
+		case ok && key == "age_unit" && !sameAgeUnit(v.value, given):
 			return "", invalid(v.line, "the file says age_unit = %q, the caller %q", v.value, given)
 		}
 		return given, nil
@@ -151,6 +163,11 @@ func LoadLMSTable(rd io.Reader, name string, opt *LMSTableOptions) (*Reference, 
 	}
 	if ref.AgeUnit == "" {
 		return nil, fmt.Errorf("%s: %w: no age unit: add a line \"# age_unit = months\" (or days, weeks, years) before the header", name, ErrInvalid)
+	}
+	// One spelling for every command: "month", "mo" and "Months" are
+	// "months" (ageunit.Parse).
+	if ref.AgeUnit, err = ageunit.Canonical(ref.AgeUnit); err != nil {
+		return nil, invalid(keys["age_unit"].line, "%v", err)
 	}
 	ref.Measure, _ = set("measure", opt.Measure)
 	ref.Unit, _ = set("unit", opt.Unit)

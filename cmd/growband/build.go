@@ -100,7 +100,10 @@ func build(plan *intake.Plan, dir string, prog progress) (*built, error) {
 	b.table = t
 	prog.printf("%s: %d rows read, %d usable", t.Name, t.Total, len(t.Rows))
 	if len(t.Rows) == 0 {
-		return nil, fmt.Errorf("%s: no usable rows (all %d excluded; see the reasons with a build of fewer limits)", t.Name, t.Total)
+		return nil, allExcluded(t, dir)
+	}
+	if err := intake.Misreadings(t, plan); err != nil {
+		return nil, err
 	}
 	data := tableData(t)
 	res, err := curve.Build(data, buildSettings(plan, prog))
@@ -154,6 +157,31 @@ func build(plan *intake.Plan, dir string, prog progress) (*built, error) {
 		return nil, err
 	}
 	return b, nil
+}
+
+// allExcluded writes excluded.csv of a table whose rows are all excluded
+// and returns the error that gives the breakdown by reason.
+func allExcluded(t *intake.Table, dir string) error {
+	var b strings.Builder
+	fmt.Fprintf(&b, "%s: no usable rows: all %d rows excluded", t.Name, t.Total)
+	path := filepath.Join(dir, "excluded.csv")
+	var buf bytes.Buffer
+	err := intake.WriteExcluded(&buf, t)
+	if err == nil {
+		if err = os.MkdirAll(dir, 0o755); err == nil {
+			err = os.WriteFile(path, buf.Bytes(), 0o644)
+		}
+	}
+	if err == nil {
+		fmt.Fprintf(&b, ", each listed with its reason in %s", path)
+	}
+	for _, c := range t.Counts() {
+		fmt.Fprintf(&b, "\n  %-40s %d", c.Reason, c.N)
+	}
+	if err != nil {
+		fmt.Fprintf(&b, "\n(excluded.csv could not be written: %v)", err)
+	}
+	return errors.New(b.String())
 }
 
 // buildSettings turns the plan's [fit], [measure] and [plausible] tables

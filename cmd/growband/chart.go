@@ -185,7 +185,7 @@ func readPoints(r *curve.Reference, st *curve.Stratum, path string, cols *column
 	outside := 0
 	for _, row := range t.Rows {
 		switch {
-		case c.stratum != "" && row.Stratum != st.Name:
+		case spec.Stratum != "" && row.Stratum != st.Name:
 		case row.Age < st.AgeMin || row.Age > st.AgeMax:
 			outside++
 		default:

@@ -255,22 +255,46 @@ func fileStems(strata []curve.Stratum) []string {
 	return out
 }
 
-// columnFlags are the flags naming the columns of a measurement CSV file,
-// shared by score, chart and check.
+// readHelp is the one-line help of each reading option (intake.OptionNames),
+// the same for every command that reads a measurement file.
+var readHelp = map[string]string{
+	"age-column":     `column holding the age, in the reference's age unit (default: a column named "age")`,
+	"birth-column":   `column holding the date of birth, with --visit-column, instead of the age (default when there is no age column: one named "birth", "birth_date", "date_of_birth" or "dob")`,
+	"visit-column":   `column holding the date of measurement, with --birth-column (default: one named "measured", "visit", "visit_date" or "date_measured")`,
+	"value-column":   `column holding the measurement (default: a column named after the reference's measure, or "value")`,
+	"stratum-column": `column holding the stratum (default: a column named "stratum", "sex" or "group")`,
+	"unit":           "unit of the values in the file, converted to the reference's unit (default: the reference's unit)",
+	"delimiter":      "field delimiter of a text file: auto, comma, semicolon or tab (default auto: detected from the header line)",
+	"decimal":        "decimal mark of a text file: auto, point or comma (default auto: the mark most number cells use)",
+	"missing":        `comma-separated cell texts meaning "missing" (default: NA,NaN,.,- and the empty cell)`,
+	"date-format":    "layout of the date columns, e.g. YYYY-MM-DD (default), DD/MM/YYYY, MM/DD/YYYY, DD.MM.YYYY or YYYYMMDD",
+	"stratum-codes":  `map stratum codes to the reference's names, e.g. "F=female,M=male,1=male,2=female"`,
+	"sheet":          "worksheet of an Excel workbook (default: the first)",
+}
+
+// registerReadFlags registers the reading options shared by every command
+// that reads a measurement file (intake.OptionNames, documented in
+// internal/intake/PLAN.md) on fs, and returns the function that applies
+// them to a reading spec.
+func registerReadFlags(fs *flag.FlagSet) func(*intake.Spec) error {
+	var o intake.Options
+	for _, name := range intake.OptionNames {
+		fs.Func(name, readHelp[name], func(v string) error { return o.Set(name, v) })
+	}
+	return o.Apply
+}
+
+// columnFlags are the reading flags of score, chart and check, with the
+// flags only some of them have.
 type columnFlags struct {
-	age, birth, visit, value, stratum, subject, unit, dateFormat, codes string
-	stratumName, weight                                                 string
+	apply       func(*intake.Spec) error
+	subject     string
+	weight      string
+	stratumName string
 }
 
 func (c *columnFlags) register(fs *flag.FlagSet, withSubject bool) {
-	fs.StringVar(&c.age, "age-column", "", `column holding the age, in the reference's age unit (default: a column named "age")`)
-	fs.StringVar(&c.birth, "birth-column", "", `column holding the date of birth, with --visit-column, instead of the age (default when there is no age column: one named "birth", "birth_date", "date_of_birth" or "dob")`)
-	fs.StringVar(&c.visit, "visit-column", "", `column holding the date of measurement, with --birth-column (default: one named "measured", "visit", "visit_date" or "date_measured")`)
-	fs.StringVar(&c.value, "value-column", "", `column holding the measurement (default: a column named after the reference's measure, or "value")`)
-	fs.StringVar(&c.stratum, "stratum-column", "", `column holding the stratum (default: a column named "stratum", "sex" or "group")`)
-	fs.StringVar(&c.unit, "unit", "", "unit of the values in the file, converted to the reference's unit (default: the reference's unit)")
-	fs.StringVar(&c.dateFormat, "date-format", intake.DefaultDateFormat, "layout of the date columns, e.g. YYYY-MM-DD, DD/MM/YYYY, MM/DD/YYYY, DD.MM.YYYY or YYYYMMDD")
-	fs.StringVar(&c.codes, "stratum-codes", "", `map stratum codes to the reference's names, e.g. "F=female,M=male,1=male,2=female"`)
+	c.apply = registerReadFlags(fs)
 	if withSubject {
 		fs.StringVar(&c.subject, "subject-column", "", "column holding the child (subject) id: a chart joins a child's points, compare makes its intervals cluster-robust")
 	}
@@ -278,33 +302,13 @@ func (c *columnFlags) register(fs *flag.FlagSet, withSubject bool) {
 
 // spec turns the flags into a reading spec for a file to be scored against
 // r: the rules of scorefile.Spec (columns found by their usual names, every
-// row kept; limits are the reference's business), with the columns, unit,
-// date layout and codes the flags name.
+// row kept; limits are the reference's business) with the reading options.
 func (c *columnFlags) spec(cmd string, r *curve.Reference) (*intake.Spec, error) {
 	s := scorefile.Spec(r)
-	s.Value, s.Subject, s.Stratum, s.DateFormat, s.Weight = c.value, c.subject, c.stratum, c.dateFormat, c.weight
-	if c.unit != "" {
-		s.InputUnit = c.unit
+	if err := c.apply(s); err != nil {
+		return nil, usagef(cmd, "%s: %v", cmd, err)
 	}
-	switch {
-	case c.birth != "" || c.visit != "":
-		if c.birth == "" || c.visit == "" {
-			return nil, usagef(cmd, "%s: --birth-column and --visit-column go together", cmd)
-		}
-		if c.age != "" {
-			return nil, usagef(cmd, "%s: give --age-column or --birth-column with --visit-column, not both", cmd)
-		}
-		s.Birth, s.Measured = c.birth, c.visit
-	default:
-		s.Age = c.age
-	}
-	if c.codes != "" {
-		m, err := intake.ParseCodes(c.codes)
-		if err != nil {
-			return nil, usagef(cmd, "%s: --stratum-codes: %v", cmd, err)
-		}
-		s.StratumCodes = m
-	}
+	s.Subject, s.Weight = c.subject, c.weight
 	return s, nil
 }
 

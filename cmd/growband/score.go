@@ -4,8 +4,6 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"strconv"
-	"strings"
 
 	"growband/curve"
 	"growband/internal/intake"
@@ -69,11 +67,11 @@ func runScore(args []string, stdout, stderr io.Writer) error {
 	}
 	var age, value float64
 	if single {
-		if age, err = strconv.ParseFloat(strings.TrimSpace(*ageFlag), 64); err != nil {
-			return usagef("score", "score: --age: %q is not a number", *ageFlag)
+		if age, err = intake.ParseNumber(*ageFlag); err != nil {
+			return usagef("score", "score: --age: %v", err)
 		}
-		if value, err = strconv.ParseFloat(strings.TrimSpace(*valueFlag), 64); err != nil {
-			return usagef("score", "score: --value: %q is not a number", *valueFlag)
+		if value, err = intake.ParseNumber(*valueFlag); err != nil {
+			return usagef("score", "score: --value: %v", err)
 		}
 	}
 	ref, err := loadReference("score", *refPath)
@@ -83,6 +81,9 @@ func runScore(args []string, stdout, stderr io.Writer) error {
 	if single {
 		if cols.stratumName == "" && len(ref.Strata) > 1 {
 			return usagef("score", "score: the reference has strata %s: name one with --stratum", scorefile.StrataNames(ref))
+		}
+		if which, err := intake.CheckMeasurement(ref.Measure, ref.Unit, age, value); err != nil {
+			return fmt.Errorf("score: --%s: %v; not scored", which, err)
 		}
 		return scoreOne(stdout, ref, cols.stratumName, age, value, *format)
 	}

@@ -4,34 +4,23 @@ import (
 	"fmt"
 	"strings"
 	"time"
+
+	"growband/internal/ageunit"
 )
 
 // dateLayout is the accepted date form, ISO 8601 calendar dates (YYYY-MM-DD),
 // which is also what an HTML date input submits.
 const dateLayout = "2006-01-02"
 
-// Days per age unit: a week is 7 days, a year the Julian year of 365.25 days
-// and a month a twelfth of it, 30.4375 days (common practice).
-const (
-	daysPerWeek  = 7
-	daysPerMonth = 365.25 / 12
-	daysPerYear  = 365.25
-)
-
-// daysPer returns the number of days in one age unit, or 0 for a unit whose
-// length is not known (ages from dates are then refused).
+// daysPer returns the number of days in one age unit (intake.ParseAgeUnit
+// names), or 0 for a unit whose length is not known (ages from dates are
+// then refused).
 func daysPer(unit string) float64 {
-	switch strings.ToLower(strings.TrimSpace(unit)) {
-	case "day", "days", "d":
-		return 1
-	case "week", "weeks", "wk", "w":
-		return daysPerWeek
-	case "month", "months", "mo", "m":
-		return daysPerMonth
-	case "year", "years", "yr", "y":
-		return daysPerYear
+	u, err := ageunit.Parse(unit)
+	if err != nil {
+		return 0
 	}
-	return 0
+	return u.Days()
 }
 
 // parseDate reads an ISO date, naming field in the error.

@@ -131,7 +131,6 @@ func TestScoreFlags(t *testing.T) {
 		// rule extends the straight line z = (v-m)/sd, so z = 6 exactly.
 		{12, testMean("F", 12) + 6*testSD, []string{"beyond-tail", "implausible"}, 6},
 		{12, testMean("F", 12) - 3*testSD, []string{"beyond-tail"}, -3},
-		{-1, 5, []string{flagOutside}, -99},
 		{24.001, 12, []string{flagOutside}, -99},
 		{24, testMean("F", 24), nil, 0}, // the upper end of the range is inside
 	} {
@@ -175,6 +174,12 @@ func TestScoreBadInput(t *testing.T) {
 		{"bad date", `{"reference":"weight","stratum":"F","birth":"2024-02-30","measured":"2024-04-01","value":9}`, "birth"},
 		{"visit before birth", `{"reference":"weight","stratum":"F","birth":"2024-05-01","measured":"2024-04-01","value":9}`, "measured"},
 		{"unknown stratum", `{"reference":"weight","stratum":"X","age":12,"value":9}`, "stratum"},
+		// Impossible measurements are refused, not scored (the reference's
+		// measure is weight in kg).
+		{"negative age", `{"reference":"weight","stratum":"F","age":-1,"value":5}`, "age"},
+		{"zero weight", `{"reference":"weight","stratum":"F","age":12,"value":0}`, "value"},
+		{"negative weight", `{"reference":"weight","stratum":"F","age":12,"value":-3}`, "value"},
+		{"huge weight", `{"reference":"weight","stratum":"F","age":12,"value":1e308}`, "value"},
 		{"no stratum of two", `{"reference":"weight","age":12,"value":9}`, "stratum"},
 		{"unknown reference", `{"reference":"height","stratum":"F","age":12,"value":9}`, "reference"},
 		{"no reference of two", `{"stratum":"F","age":12,"value":9}`, "reference"},

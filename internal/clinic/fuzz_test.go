@@ -10,6 +10,7 @@ import (
 	"unicode/utf8"
 
 	"growband/internal/csvsafe"
+	"growband/internal/intake"
 )
 
 // FuzzScoreBody feeds arbitrary bodies to the score endpoint's reader and
@@ -68,10 +69,13 @@ func FuzzBatchCSV(f *testing.F) {
 	h, _ := newTestHandler(f, Options{}, false)
 	f.Fuzz(func(t *testing.T, data []byte) {
 		var out bytes.Buffer
-		_, err := h.scoreCSV(&out, "fuzz.csv", data, 0)
+		job, err := h.startBatch("fuzz.csv", data, 0, &intake.Options{})
 		var ie *inputError
 		if err != nil && !errors.As(err, &ie) {
 			t.Fatalf("%q: error %v is not an input error", data, err)
+		}
+		if err == nil {
+			job.write(&out, func() {})
 		}
 		if !utf8.Valid(out.Bytes()) {
 			t.Fatalf("%q: output is not UTF-8: %q", data, out.Bytes())

@@ -30,6 +30,8 @@ type handler struct {
 	hosts  hostNames
 	static fs.FS
 	mux    *http.ServeMux
+
+	batchSlots chan struct{} // one token per batch job running (maxBatchJobs)
 }
 
 // NewHandler returns the HTTP handler of the page and the API for the loaded
@@ -44,7 +46,7 @@ type handler struct {
 // says comes from a page of another origin.
 func NewHandler(refs []*curve.Reference, names []string, opt Options) http.Handler {
 	h := &handler{cat: newCatalog(refs, names), log: opt.Log, max: opt.maxBody(), mux: http.NewServeMux(),
-		hosts: newHostNames(append([]string{opt.Addr}, opt.Hosts...)...)}
+		hosts: newHostNames(append([]string{opt.Addr}, opt.Hosts...)...), batchSlots: make(chan struct{}, maxBatchJobs)}
 	h.cat.files = opt.files
 	if opt.Audit != nil {
 		h.audit = &auditLog{w: opt.Audit, name: opt.auditName(), log: h.logf, now: time.Now}

@@ -15,6 +15,7 @@ import (
 	"strings"
 	"testing"
 
+	"growband/internal/ageunit"
 	"growband/internal/scorefile"
 )
 
@@ -77,7 +78,7 @@ func TestPageScore(t *testing.T) {
 	}
 	body := rec.Body.String()
 	// 2024-01-02 to 2024-07-02 is 182 days (exact calendar arithmetic).
-	age2 := 182 / daysPerMonth
+	age2 := 182 / ageunit.Months.Days()
 	zs := pageZ(t, body)
 	want := []float64{testZ("F", age2, 6.2), -0.5}
 	if len(zs) != 2 || !near(zs[0], want[0], 0.005) || !near(zs[1], want[1], 0.005) {
@@ -206,7 +207,7 @@ func TestBatchAPI(t *testing.T) {
 	in = "\ufeffSex;Birth;Measured;Value\nF;2024-01-02;2025-01-02;7,9\n"
 	rec = do(t, h, http.MethodPost, "/api/v1/batch?reference=weight", "text/csv", strings.NewReader(in))
 	rows, _ = csv.NewReader(rec.Body).ReadAll()
-	age := 366 / daysPerMonth // exact calendar arithmetic, as in TestScoreDates
+	age := 366 / ageunit.Months.Days() // exact calendar arithmetic, as in TestScoreDates
 	if len(rows) != 2 || rows[1][4] != scorefile.ZText(testZ("F", age, 7.9)) {
 		t.Errorf("rows %q", rows)
 	}

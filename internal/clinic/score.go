@@ -8,6 +8,7 @@ import (
 	"strings"
 
 	"growband/curve"
+	"growband/internal/intake"
 )
 
 // flagOutside marks a measurement whose age lies outside the fitted age range
@@ -152,6 +153,12 @@ func (c *catalog) score(m *measurement, f fields) (result, error) {
 	if math.IsNaN(m.Value) || math.IsInf(m.Value, 0) {
 		return result{}, fieldErr(f.Value, "value must be a finite number")
 	}
+	if which, err := intake.CheckMeasurement(r.Measure, r.Unit, age, m.Value); err != nil {
+		if which == "age" {
+			return result{}, fieldErr(f.Age, "%v", err)
+		}
+		return result{}, fieldErr(f.Value, "%v", err)
+	}
 	res := result{
 		Reference: c.names[i], Stratum: st.Name, Age: age, AgeUnit: r.AgeUnit,
 		Value: m.Value, Unit: r.Unit, Flags: []string{},
@@ -184,8 +191,8 @@ func parseNumber(field, s string) (float64, error) {
 	if strings.Count(t, ",") == 1 && !strings.Contains(t, ".") {
 		t = strings.Replace(t, ",", ".", 1)
 	}
-	v, err := strconv.ParseFloat(t, 64)
-	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
+	v, err := intake.ParseNumber(t)
+	if err != nil {
 		return 0, fieldErr(field, "%q is not a number", s)
 	}
 	return v, nil

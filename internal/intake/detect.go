@@ -1,36 +1,12 @@
 package intake
 
-import "unicode/utf8"
-
-// headerLine returns the first non-blank line of data (without its line
-// ending) and its 1-based line number. A newline inside double quotes does
-// not end the line.
-func headerLine(data []byte) ([]byte, int) {
-	line := 1
-	start := 0
-	for start < len(data) && (data[start] == '\n' || data[start] == '\r') {
-		if data[start] == '\n' {
-			line++
-		}
-		start++
-	}
-	quoted := false
-	for i := start; i < len(data); i++ {
-		switch data[i] {
-		case '"':
-			quoted = !quoted
-		case '\n':
-			if !quoted {
-				end := i
-				if end > start && data[end-1] == '\r' {
-					end--
-				}
-				return data[start:end], line
-			}
-		}
-	}
-	return data[start:], line
-}
+import (
+	"fmt"
+	"math"
+	"strconv"
+	"strings"
+	"unicode/utf8"
+)
 
 // detectDelimiter picks the delimiter of a header line: the most frequent of
 // comma, semicolon and tab outside double quotes, preferring them in that
@@ -137,4 +113,20 @@ func firstInvalidUTF8(b []byte) int {
 		i += size
 	}
 	return -1
+}
+
+// ParseNumber reads a plain decimal number as a person writes it, with a
+// decimal point: optional sign, digits, an optional exponent. It refuses
+// what only a programming language reads as a number (1_2, 0x1.2p3, Inf,
+// NaN) and values too large to represent.
+func ParseNumber(s string) (float64, error) {
+	t := strings.TrimSpace(s)
+	if !isDecimal(t) {
+		return 0, fmt.Errorf("%q is not a number", s)
+	}
+	x, err := strconv.ParseFloat(t, 64)
+	if err != nil || math.IsInf(x, 0) || math.IsNaN(x) {
+		return 0, fmt.Errorf("%q is not a finite number", s)
+	}
+	return x, nil
 }

@@ -1,6 +1,7 @@
-// Package intake turns a user's CSV file and TOML plan into clean measurement
-// rows, and lists every row it does not use with its reason: nothing is lost
-// silently.
+// Package intake turns a user's measurement file (CSV, an Excel workbook or
+// an Apache Parquet file) and TOML plan into clean measurement rows, and
+// lists every row it does not use with its reason: nothing is lost
+// silently. A Reader streams the rows one at a time; Read collects them.
 //
 // A build reads a plan and its input:
 //
@@ -25,8 +26,13 @@
 // Reading rules, each common practice for survey exports: the delimiter
 // (comma, semicolon or tab) is the most frequent one outside quotes on the
 // header line; a UTF-8 byte-order mark and CRLF line endings are accepted; a
-// decimal comma is read automatically only with a semicolon or tab delimiter
-// when numbers look like 12,5 and none like 12.5. Age from dates is the exact
+// quoted field may span lines, but one still open when the row has broken
+// its shape (a stray quote) spoils only its first line, listed as a badly
+// quoted row, and reading resumes on the next; a decimal comma is read
+// automatically, never with a comma delimiter, when more number cells of
+// the first rows look like 12,5 than like 12.5, and a cell written the other
+// way is excluded alone. Impossible values (a body measurement of 0 or
+// below, a negative age) are excluded whatever the plausible ranges. Age from dates is the exact
 // number of calendar days between birth and measurement, converted with
 // 7 days a week, 30.4375 days a month and 365.25 days a year. Mass and length
 // conversions use the exact factors 1 lb = 0.45359237 kg and 1 in = 2.54 cm

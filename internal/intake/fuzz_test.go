@@ -6,6 +6,8 @@ import (
 	"io"
 	"strings"
 	"testing"
+
+	"github.com/xuri/excelize/v2"
 )
 
 // fuzzSpecs are read against every fuzzed CSV text.
@@ -27,6 +29,8 @@ func FuzzRead(f *testing.F) {
 		"age,v\n\"1\n2\",3\n",
 		"age,v,sex,id,w\n1e999,NaN,,,-1\n",
 		"a,\"b\nc",
+		"id,note,age,v\nx,\"open,1,2\ny,\"ok\",3,4\nz,\"two\nlines\",5,6\n",
+		"age;v\n1;12,5\n2;120.5\n3;7,25\n",
 		"",
 		"\x00",
 	} {
@@ -81,4 +85,77 @@ func FuzzParsePlan(f *testing.F) {
 			t.Fatalf("valid plan gives a bad spec: %v", err)
 		}
 	})
+}
+
+// fuzzFormat checks one fuzzed file in a binary format: no panic, a
+// positioned error or a table whose counts add up.
+func fuzzFormat(t *testing.T, data []byte, name string, specs []Spec) {
+	for i := range specs {
+		tb, err := Read(bytes.NewReader(data), name, &specs[i])
+		if err != nil {
+			if !strings.HasPrefix(err.Error(), name) {
+				t.Fatalf("error %q does not name the file", err)
+			}
+			continue
+		}
+		checkCounts(t, tb)
+		if err := WriteExcluded(io.Discard, tb); err != nil {
+			t.Fatal(err)
+		}
+	}
+}
+
+// fuzzBinarySpecs read the seed files' columns by name and by dates.
+var fuzzBinarySpecs = []Spec{
+	{Age: "age", Value: "v", Stratum: "sex", StratumCodes: map[string]string{"1": "male", "F": "female"}},
+	{Birth: "dob", Measured: "visit", Value: "v", DateFormat: "DD/MM/YYYY", Sheet: "data"},
+	{Look: &UsualNames, KeepDuplicates: true},
+}
+
+func FuzzReadXLSX(f *testing.F) {
+	header, rows := []string{"age", "v", "sex", "dob", "visit"}, [][]string{
+		{"1.5", "4.2", "F", "2020-01-02", "2020-02-16"}, {"x", "12,5", "1", "", "2021-03-01"}, {"3", "", "M", "2020-01-02", "2019-01-01"},
+	}
+	f.Add(xlsxSeed(f, "Sheet1", header, rows))
+	f.Add(xlsxSeed(f, "data", header, rows[:1]))
+	f.Add(xlsxSeed(f, "Sheet1", []string{"value"}, nil))
+	f.Add([]byte("PK\x03\x04"))
+	f.Fuzz(func(t *testing.T, data []byte) {
+		fuzzFormat(t, data, "f.xlsx", fuzzBinarySpecs)
+	})
+}
+
+func FuzzReadParquet(f *testing.F) {
+	header, rows := []string{"age", "v", "sex", "dob", "visit"}, [][]string{
+		{"1.5", "4.2", "F", "2020-01-02", "2020-02-16"}, {"x", "12,5", "1", "", "2021-03-01"}, {"3", "", "M", "2020-01-02", "2019-01-01"},
+	}
+	f.Add(writeParquet(f, header, rows, 2))
+	f.Add(writeParquet(f, []string{"age_months", "v", "birth_date"}, [][]string{{"3", "5.5", "2020-01-01"}, {"", "6", ""}}, 1))
+	f.Add([]byte("PAR1PAR1"))
+	f.Fuzz(func(t *testing.T, data []byte) {
+		fuzzFormat(t, data, "f.parquet", fuzzBinarySpecs)
+	})
+}
+
+// xlsxSeed writes a small workbook with one sheet of text cells.
+func xlsxSeed(t testing.TB, sheet string, header []string, rows [][]string) []byte {
+	t.Helper()
+	x := excelize.NewFile()
+	defer x.Close()
+	if sheet != "Sheet1" {
+		x.SetSheetName("Sheet1", sheet)
+	}
+	for i, r := range append([][]string{header}, rows...) {
+		cells := make([]any, len(r))
+		for j, c := range r {
+			cells[j] = c
+		}
+		axis, _ := excelize.CoordinatesToCellName(1, i+1)
+		x.SetSheetRow(sheet, axis, &cells)
+	}
+	var buf bytes.Buffer
+	if err := x.Write(&buf); err != nil {
+		t.Fatal(err)
+	}
+	return buf.Bytes()
 }

@@ -56,6 +56,7 @@ type rawInput struct {
 	Missing      raw `toml:"missing"`
 	DateFormat   raw `toml:"date_format"`
 	StratumCodes raw `toml:"stratum_codes"`
+	Sheet        raw `toml:"sheet"`
 }
 
 type rawMeasure struct {

@@ -41,6 +41,7 @@ type Input struct {
 	Missing      []string
 	DateFormat   string
 	StratumCodes map[string]string // nil = labels as written
+	Sheet        string            // worksheet of an Excel workbook; "" = the first
 }
 
 // Measure is the [measure] table.
@@ -155,6 +156,8 @@ func (p *Plan) Spec() *Spec {
 		Delimiter:    p.Input.Delimiter,
 		DateFormat:   p.Input.DateFormat,
 		StratumCodes: p.Input.StratumCodes,
+		Sheet:        p.Input.Sheet,
+		Measure:      p.Measure.Name,
 	}
 }
 

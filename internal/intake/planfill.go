@@ -3,6 +3,8 @@ package intake
 import (
 	"math"
 	"slices"
+
+	"growband/internal/ageunit"
 )
 
 // plan converts the raw values to a Plan, applying defaults and checking
@@ -60,9 +62,18 @@ func (d *planDecoder) plan(rp *rawPlan) *Plan {
 	}
 	if rm.Unit.set {
 		p.Measure.Unit, _ = d.str("measure.unit", rm.Unit)
+		if err := CheckUnit(p.Measure.Unit); err != nil {
+			d.fail("measure.unit", ErrPlanValue, "measure.unit: %v", err)
+		}
 	}
 	if rm.AgeUnit.set {
-		p.Measure.AgeUnit, _ = d.oneOf("measure.age_unit", rm.AgeUnit, "days", "weeks", "months", "years")
+		if v, ok := d.str("measure.age_unit", rm.AgeUnit); ok {
+			u, err := ageunit.Parse(v)
+			if err != nil {
+				d.fail("measure.age_unit", ErrPlanValue, "measure.age_unit: %v", err)
+			}
+			p.Measure.AgeUnit = u.String()
+		}
 	}
 
 	// Reading options.
@@ -70,20 +81,31 @@ func (d *planDecoder) plan(rp *rawPlan) *Plan {
 	if ri.Unit.set {
 		if s, ok := d.str("input.unit", ri.Unit); ok {
 			in.Unit = s
-			if _, err := unitFactor(s, p.Measure.Unit); err != nil {
+			if err := CheckUnit(s); err != nil {
+				d.fail("input.unit", ErrPlanValue, "input.unit: %v", err)
+			} else if _, err := unitFactor(s, p.Measure.Unit); err != nil {
 				d.fail("input.unit", ErrPlanValue, "input.unit: %v", err)
 			}
 		}
 	}
 	if ri.Delimiter.set {
-		if s, ok := d.oneOf("input.delimiter", ri.Delimiter, "auto", ",", ";", "tab", "\t"); ok {
-			in.Delimiter = map[string]rune{"auto": 0, ",": ',', ";": ';', "tab": '\t', "\t": '\t'}[s]
+		if v, ok := d.str("input.delimiter", ri.Delimiter); ok {
+			var err error
+			if in.Delimiter, err = ParseDelimiter(v); err != nil {
+				d.fail("input.delimiter", ErrPlanValue, "input.delimiter: %v", err)
+			}
 		}
 	}
 	if ri.Decimal.set {
-		if s, ok := d.oneOf("input.decimal", ri.Decimal, "auto", "point", "comma"); ok {
-			in.Decimal = map[string]Decimal{"auto": DecimalAuto, "point": DecimalPoint, "comma": DecimalComma}[s]
+		if v, ok := d.str("input.decimal", ri.Decimal); ok {
+			var err error
+			if in.Decimal, err = ParseDecimal(v); err != nil {
+				d.fail("input.decimal", ErrPlanValue, "input.decimal: %v", err)
+			}
 		}
+	}
+	if ri.Sheet.set {
+		in.Sheet, _ = d.str("input.sheet", ri.Sheet)
 	}
 	in.Missing = slices.Clone(DefaultMissing)
 	if ri.Missing.set {

@@ -2,124 +2,63 @@ package intake
 
 import (
 	"bytes"
-	"encoding/csv"
-	"errors"
 	"fmt"
 	"io"
 	"math"
-	"os"
 	"strconv"
 	"strings"
 	"time"
-	"unicode/utf8"
 )
 
-// ReadFile opens the CSV file at path and reads it with Read, naming the
-// file by path in messages.
+// ReadFile reads the measurement file at path with Read, naming the file
+// by path in messages. A Parquet file is read one row group at a time.
 func ReadFile(path string, spec *Spec) (*Table, error) {
-	f, err := os.Open(path)
+	r, err := OpenFile(path, spec)
 	if err != nil {
-		return nil, err // *fs.PathError names the file
+		return nil, err
 	}
-	defer f.Close()
-	return Read(f, path, spec)
+	defer r.Close()
+	return r.collect()
 }
 
-// Read reads a measurement CSV file with a header row. name is used in
-// messages. Every data row ends up either in Table.Rows or, with one reason,
-// in Table.Excluded; problems with single rows never fail the read.
+// Read reads a measurement file with a header row: delimited text (CSV), an
+// Excel workbook (.xlsx; the first sheet or Spec.Sheet) or an Apache
+// Parquet file, recognised from the content. name is used in messages.
+// Every data row ends up either in Table.Rows or, with one reason, in
+// Table.Excluded; problems with single rows never fail the read.
 //
 // Read fails with an *Error (wrapping ErrEmpty, ErrNoRows, ErrColumn,
 // ErrBinary, ErrHeader or ErrBadSpec) when the file cannot be used at all:
 // it is empty, holds no data rows, is not UTF-8 text, or lacks a column named
 // in spec. It does not panic on any input.
 func Read(r io.Reader, name string, spec *Spec) (*Table, error) {
-	if spec == nil {
-		spec = &Spec{}
-	}
-	p, err := spec.prepare(name)
+	rd, err := NewReader(r, name, spec)
 	if err != nil {
 		return nil, err
 	}
-	data, err := io.ReadAll(r)
-	if err != nil {
-		return nil, fmt.Errorf("%s: %w", name, err)
-	}
-	data, err = checkText(data, name)
-	if err != nil {
-		return nil, err
-	}
+	defer rd.Close()
+	return rd.collect()
+}
 
-	hdr, hdrLine := headerLine(data)
-	if off := firstInvalidUTF8(hdr); off >= 0 {
-		return nil, errAt(name, hdrLine, ErrBinary, "header is not UTF-8 text (invalid byte 0x%02x at column %d); save the file as UTF-8",
-			hdr[off], off+1)
-	}
-	delim := p.Delimiter
-	if delim == 0 {
-		delim = detectDelimiter(hdr)
-	}
-
-	cr := csv.NewReader(bytes.NewReader(data))
-	cr.Comma = delim
-	cr.FieldsPerRecord = -1
-	header, err := cr.Read()
-	if err != nil {
-		var pe *csv.ParseError
-		if errors.As(err, &pe) {
-			return nil, errAt(name, pe.StartLine, ErrHeader, "header row: %v", pe.Err)
+// collect reads the remaining rows into a Table.
+func (r *Reader) collect() (*Table, error) {
+	t := r.table()
+	for {
+		rec, err := r.Next()
+		if err == io.EOF {
+			break
 		}
-		return nil, errAt(name, hdrLine, ErrHeader, "header row: %v", err)
-	}
-	hdrLine, _ = cr.FieldPos(0)
-	if p.Look != nil {
-		if err := p.look(header); err != nil {
-			return nil, errAt(name, hdrLine, ErrColumn, "%s", err)
+		if err != nil {
+			return nil, err
+		}
+		if rec.Excl != nil {
+			t.Excluded = append(t.Excluded, *rec.Excl)
+		} else {
+			t.Rows = append(t.Rows, *rec.Row)
 		}
 	}
-	cols, err := p.columns(header, name, hdrLine)
-	if err != nil {
-		return nil, err
-	}
-
-	recs, err := readRecords(cr, data)
-	if err != nil {
-		return nil, fmt.Errorf("%s: %w", name, err)
-	}
-	if len(recs) == 0 {
-		return nil, errAt(name, hdrLine, ErrNoRows, "no data rows below the header")
-	}
-
-	t := &Table{
-		Name:       name,
-		Header:     header,
-		Delimiter:  delim,
-		Total:      len(recs),
-		hasWeight:  p.Weight != "",
-		Stratum:    p.Stratum,
-		hasStratum: p.Stratum != "",
-		hasSubject: p.Subject != "",
-	}
-	switch p.Decimal {
-	case DecimalComma:
-		t.DecimalComma = true
-	case DecimalAuto:
-		t.DecimalComma = (delim == ';' || delim == '\t') && commaNumbers(recs, cols, len(header))
-	}
-	rd := rowReader{p: p, cols: cols, header: header, comma: t.DecimalComma, seen: map[string]int{}}
-	for i := range recs {
-		rec := &recs[i]
-		if rec.quoteErr != "" {
-			t.Excluded = append(t.Excluded, Exclusion{Line: rec.line, Reason: ReasonQuotes, Detail: rec.quoteErr})
-			continue
-		}
-		row, reason, detail := rd.row(rec)
-		if reason != 0 {
-			t.Excluded = append(t.Excluded, Exclusion{Line: rec.line, Reason: reason, Detail: detail, Fields: rec.fields})
-			continue
-		}
-		t.Rows = append(t.Rows, row)
-	}
+	t.Total = r.total
+	t.DateHint = r.DateHint()
 	return t, nil
 }
 
@@ -191,94 +130,21 @@ func (p *prepared) columns(header []string, name string, line int) (colIndex, er
 	return c, nil
 }
 
-// record is one data record as read by encoding/csv.
-type record struct {
-	line     int
-	fields   []string
-	quoteErr string // set for a record encoding/csv could not split
-}
-
-// readRecords reads the data records. A quoting error spoils only its own
-// record: encoding/csv resumes after it.
-func readRecords(cr *csv.Reader, data []byte) ([]record, error) {
-	var recs []record
-	var lines [][]byte // physical lines, split only when a quoting error needs them
-	for {
-		before := cr.InputOffset()
-		fields, err := cr.Read()
-		if err == io.EOF {
-			return recs, nil
-		}
-		if err != nil {
-			var pe *csv.ParseError
-			if !errors.As(err, &pe) {
-				return nil, err
-			}
-			if lines == nil {
-				lines = bytes.Split(data, []byte{'\n'})
-			}
-			recs = append(recs, record{line: pe.StartLine, quoteErr: pe.Err.Error() + ": " + rawText(lines, pe.StartLine, pe.Line)})
-			if cr.InputOffset() == before {
-				return recs, nil // no progress: give up on the rest rather than loop
-			}
-			continue
-		}
-		line, _ := cr.FieldPos(0)
-		recs = append(recs, record{line: line, fields: fields})
-	}
-}
-
-// rawText returns physical lines from..to (1-based) joined, trimmed to a
-// readable length, so a row that could not be split is still shown.
-func rawText(lines [][]byte, from, to int) string {
-	const maxShown = 200 // bytes of a broken row shown in its detail
-	if from < 1 || from > len(lines) {
-		return ""
-	}
-	to = min(max(to, from), len(lines))
-	s := string(bytes.TrimRight(bytes.Join(lines[from-1:to], []byte{'\n'}), "\r\n"))
-	if len(s) > maxShown {
-		n := maxShown
-		for n > 0 && !utf8.RuneStart(s[n]) {
-			n--
-		}
-		s = s[:n] + "..."
-	}
-	return s
-}
-
-// commaNumbers reports whether the numeric cells of well-formed records use
-// a decimal comma: some look like 12,5 and none like 12.5.
-func commaNumbers(recs []record, c colIndex, nf int) bool {
-	nComma := 0
-	for i := range recs {
-		f := recs[i].fields
-		if len(f) != nf {
-			continue
-		}
-		for _, k := range []int{c.age, c.value, c.weight} {
-			if k < 0 {
-				continue
-			}
-			s := strings.TrimSpace(f[k])
-			if looksPoint(s) {
-				return false
-			}
-			if looksComma(s) {
-				nComma++
-			}
-		}
-	}
-	return nComma > 0
-}
-
 // rowReader turns records into rows.
 type rowReader struct {
 	p      *prepared
 	cols   colIndex
 	header []string
 	comma  bool
-	seen   map[string]int // duplicate key -> line of the first row
+	src    source
+	seen   map[string]int // duplicate key -> line of the first row; nil = no check
+
+	// Dates that did not read, and how many of them read with day and
+	// month swapped, for DateHint.
+	dateFail, swapOK int
+	dateCol          string
+
+	lim *limits // impossible values, set on the first row
 }
 
 func (rd *rowReader) row(rec *record) (Row, Reason, string) {
@@ -343,13 +209,27 @@ func (rd *rowReader) row(rec *record) (Row, Reason, string) {
 		}
 		row.Subject = s
 	}
+	if row.Age < 0 {
+		return row, ReasonAgeRange, fmt.Sprintf("age %s %s is impossible: it must be 0 or above", fmtNum(row.Age), p.AgeUnit)
+	}
+	if rd.lim == nil {
+		measure := p.Measure
+		if measure == "" {
+			measure = p.Value
+		}
+		l := limitsOf(measure, p.Unit)
+		rd.lim = &l
+	}
+	if why := rd.lim.check(row.Value); why != "" {
+		return row, ReasonValueRange, why
+	}
 	if !p.AgeRange.Contains(row.Age) {
 		return row, ReasonAgeRange, fmt.Sprintf("age %s %s not in [%g, %g]", fmtNum(row.Age), p.AgeUnit, p.AgeRange.Min, p.AgeRange.Max)
 	}
 	if !p.ValueRange.Contains(row.Value) {
 		return row, ReasonValueRange, fmt.Sprintf("%s %s %s not in [%g, %g]", p.Value, fmtNum(row.Value), p.Unit, p.ValueRange.Min, p.ValueRange.Max)
 	}
-	if !p.KeepDuplicates {
+	if rd.seen != nil {
 		var key string
 		if c.subject >= 0 {
 			key = row.Subject + "\x00" + fmtNum(row.Age) + "\x00" + fmtNum(row.Value)
@@ -375,11 +255,11 @@ func (rd *rowReader) number(f []string, k int) (float64, Reason, string) {
 	t := s
 	if rd.comma {
 		if strings.Contains(t, ".") {
-			return 0, ReasonNotNumber, fmt.Sprintf("%s: %q has a decimal point but the file uses decimal commas", col, s)
+			return 0, ReasonNotNumber, fmt.Sprintf("%s: %q has a decimal point but the file's numbers use decimal commas", col, s)
 		}
 		t = strings.Replace(t, ",", ".", 1)
 	} else if looksComma(t) {
-		return 0, ReasonNotNumber, fmt.Sprintf("%s: %q has a decimal comma (set the decimal option to comma)", col, s)
+		return 0, ReasonNotNumber, fmt.Sprintf("%s: %q has a decimal comma but the file's numbers use decimal points (if the file writes 12,5: decimal = comma, --decimal comma)", col, s)
 	}
 	if !isDecimal(t) {
 		return 0, ReasonNotNumber, fmt.Sprintf("%s: %q", col, s)
@@ -397,11 +277,49 @@ func (rd *rowReader) date(f []string, k int) (time.Time, Reason, string) {
 	if rd.p.missing[s] {
 		return time.Time{}, ReasonMissing, col
 	}
+	if d, ok := rd.src.dateCell(k, s); ok {
+		return d, 0, ""
+	}
 	d, err := time.Parse(rd.p.layout, s)
 	if err != nil {
+		rd.dateFail++
+		if sw := swappedLayout[rd.p.layout]; sw != "" {
+			if _, err := time.Parse(sw, s); err == nil {
+				rd.swapOK++
+				rd.dateCol = col
+			}
+		}
 		return time.Time{}, ReasonBadDate, fmt.Sprintf("%s: %q is not a date in the format %s", col, s, rd.p.DateFormat)
 	}
 	return d, 0, ""
+}
+
+// swappedLayout gives, for a date layout with day and month in either
+// order, the layout with the two swapped.
+var swappedLayout = map[string]string{
+	"2/1/2006": "1/2/2006", "1/2/2006": "2/1/2006",
+	"2.1.2006": "1.2.2006", "2-1-2006": "1-2-2006",
+}
+
+// letterFormat names a parse layout in letter notation for messages.
+var letterFormat = map[string]string{
+	"2/1/2006": "DD/MM/YYYY", "1/2/2006": "MM/DD/YYYY",
+	"1.2.2006": "MM.DD.YYYY", "1-2-2006": "MM-DD-YYYY",
+}
+
+// dateHint is a note when every date that failed to read reads with day and
+// month swapped: the file's order contradicts the date format.
+func (rd *rowReader) dateHint() string {
+	if rd.dateFail == 0 || rd.swapOK < rd.dateFail {
+		return ""
+	}
+	sw := swappedLayout[rd.p.layout]
+	f, ok := letterFormat[sw]
+	if !ok {
+		return ""
+	}
+	return fmt.Sprintf("%d dates (for example in column %q) are not valid as %s but are as %s: the file writes the day and month the other way round; set the date format to %s",
+		rd.dateFail, rd.dateCol, rd.p.DateFormat, f, f)
 }
 
 func fmtNum(x float64) string { return strconv.FormatFloat(x, 'g', -1, 64) }

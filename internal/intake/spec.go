@@ -3,6 +3,8 @@ package intake
 import (
 	"fmt"
 	"strings"
+
+	"growband/internal/ageunit"
 )
 
 // Decimal is the decimal separator of numbers in a CSV file.
@@ -67,6 +69,12 @@ type Spec struct {
 	Decimal    Decimal
 	Delimiter  rune   // ',', ';' or '\t'; 0 = detect from the header line
 	DateFormat string // one of DateFormats(); "" = DefaultDateFormat
+	Sheet      string // worksheet of an Excel workbook; "" = the first
+
+	// Measure names what the values are (weight, height, ...); it picks
+	// the impossible values that are refused whatever the ranges ("" = the
+	// value column's name).
+	Measure string
 
 	// StratumCodes maps codes in the stratum column to labels (for example
 	// "1" and "M" to "male"). Codes are matched after trimming spaces,
@@ -126,10 +134,11 @@ func (s *Spec) prepare(file string) (*prepared, error) {
 	if p.AgeUnit == "" {
 		p.AgeUnit = "months"
 	}
-	if err := checkAgeUnit(p.AgeUnit); err != nil {
+	u, err := ageunit.Parse(p.AgeUnit)
+	if err != nil {
 		return nil, bad("%v", err)
 	}
-	p.days = daysPer[p.AgeUnit]
+	p.AgeUnit, p.days = u.String(), u.Days()
 	if p.InputUnit == "" {
 		p.InputUnit = p.Unit
 	}

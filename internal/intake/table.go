@@ -32,7 +32,7 @@ func (e *Exclusion) Text() string {
 	return e.Reason.String() + " (" + e.Detail + ")"
 }
 
-// Table is the result of reading a CSV file: every data row read is in
+// Table is the result of reading a measurement file: every data row read is in
 // exactly one of Rows and Excluded, so len(Rows)+len(Excluded) == Total
 // always. Both slices are in file order.
 type Table struct {
@@ -42,6 +42,7 @@ type Table struct {
 	DecimalComma bool     // whether numbers were read with a decimal comma
 	Total        int      // data rows read
 	Stratum      string   // name of the stratum column read, "" for none
+	DateHint     string   // see Reader.DateHint; "" when dates read well
 	Rows         []Row
 	Excluded     []Exclusion
 

@@ -27,7 +27,7 @@ func Spec(r *curve.Reference) *intake.Spec {
 	if r.Measure != "" && !slices.Contains(look.Value, strings.ToLower(r.Measure)) {
 		look.Value = append([]string{r.Measure}, look.Value...)
 	}
-	return &intake.Spec{AgeUnit: r.AgeUnit, Unit: r.Unit, InputUnit: r.Unit, KeepDuplicates: true, Look: &look}
+	return &intake.Spec{AgeUnit: r.AgeUnit, Unit: r.Unit, InputUnit: r.Unit, Measure: r.Measure, KeepDuplicates: true, Look: &look}
 }
 
 // Row is one input row with its score, or the reason it has none.
@@ -59,30 +59,44 @@ func Score(r *curve.Reference, t *intake.Table, stratum func(string) string) ([]
 	}
 	var out []Row
 	for _, rec := range t.All() {
-		o := Row{Line: rec.Line, Fields: rec.Fields, Age: math.NaN(), Value: math.NaN(), Z: math.NaN(), Centile: math.NaN()}
-		if rec.Excl != nil {
-			o.Flag = rec.Excl.Text()
-			out = append(out, o)
-			continue
-		}
-		o.Stratum, o.Age, o.Value = stratum(rec.Row.Stratum), rec.Row.Age, rec.Row.Value
-		s, err := r.Score(o.Stratum, o.Age, o.Value)
-		if err != nil {
-			o.Flag = Reason(r, err)
-		} else {
-			o.Z, o.Centile, o.Flag, o.OK = s.Z, s.Centile, s.Flags.String(), true
-		}
-		out = append(out, o)
+		out = append(out, ScoreRecord(r, rec, stratum))
 	}
 	return out, nil
+}
+
+// ScoreRecord scores one row as read (from Table.All or Reader.Next);
+// stratum maps the row's stratum to the one scored in.
+func ScoreRecord(r *curve.Reference, rec intake.Record, stratum func(string) string) Row {
+	o := Row{Line: rec.Line, Fields: rec.Fields, Age: math.NaN(), Value: math.NaN(), Z: math.NaN(), Centile: math.NaN()}
+	if rec.Excl != nil {
+		o.Flag = rec.Excl.Text()
+		return o
+	}
+	if stratum == nil {
+		stratum = func(s string) string { return s }
+	}
+	o.Stratum, o.Age, o.Value = stratum(rec.Row.Stratum), rec.Row.Age, rec.Row.Value
+	s, err := r.Score(o.Stratum, o.Age, o.Value)
+	if err != nil {
+		o.Flag = Reason(r, err)
+	} else {
+		o.Z, o.Centile, o.Flag, o.OK = s.Z, s.Centile, s.Flags.String(), true
+	}
+	return o
 }
 
 // NeedStratum returns an error wrapping ErrNoStratum when t was read
 // without a stratum column and r has several strata.
 func NeedStratum(r *curve.Reference, t *intake.Table) error {
-	if t.Stratum == "" && len(r.Strata) > 1 {
-		return fmt.Errorf("%s: %w: the reference has strata %s; add a column named %s",
-			t.Name, ErrNoStratum, StrataNames(r), strings.Join(intake.UsualNames.Stratum, " or "))
+	return NeedStratumColumn(r, t.Name, t.Stratum)
+}
+
+// NeedStratumColumn is NeedStratum for the file name read with the stratum
+// column stratumCol ("" for none), as a Reader gives them.
+func NeedStratumColumn(r *curve.Reference, name, stratumCol string) error {
+	if stratumCol == "" && len(r.Strata) > 1 {
+		return fmt.Errorf("%s: %w: the reference has strata %s; add a column named %s (or name it with the stratum-column option)",
+			name, ErrNoStratum, StrataNames(r), strings.Join(intake.UsualNames.Stratum, " or "))
 	}
 	return nil
 }
@@ -121,32 +135,63 @@ var Columns = []string{"z", "centile", "flag"}
 // passes through csvsafe.Cell: a spreadsheet will not run one as a formula,
 // and bytes that are not UTF-8 are replaced.
 func WriteCSV(w io.Writer, header []string, rows []Row) error {
-	cw := csv.NewWriter(w)
-	safe := func(cells []string) []string {
-		for i, c := range cells {
-			cells[i] = csvsafe.Cell(c)
-		}
-		return cells
-	}
 	cond := len(rows) > 0 && rows[0].Cond != nil
+	cw := NewCSVWriter(w, header, cond)
+	for _, o := range rows {
+		cw.Write(o)
+	}
+	return cw.Flush()
+}
+
+// CSVWriter writes scored rows one at a time, as WriteCSV does.
+type CSVWriter struct {
+	cw    *csv.Writer
+	nf    int
+	cond  bool
+	cells []string
+}
+
+// NewCSVWriter returns a writer of scored rows under header (with Columns
+// added, and CondColumns before flag when cond), which it writes first.
+func NewCSVWriter(w io.Writer, header []string, cond bool) *CSVWriter {
+	c := &CSVWriter{cw: csv.NewWriter(w), nf: len(header), cond: cond}
 	head := append(slices.Clone(header), Columns[:2]...)
 	if cond {
 		head = append(head, CondColumns...)
 	}
-	cw.Write(safe(append(head, Columns[2:]...)))
-	for _, o := range rows {
-		cells := slices.Clone(o.Fields)
-		for len(cells) < len(header) {
-			cells = append(cells, "")
-		}
-		cells = append(cells, ZText(o.Z), CentileText(o.Centile))
-		if cond {
-			cells = append(cells, ZText(o.Cond.Z), CentileText(o.Cond.Centile))
-		}
-		cw.Write(safe(append(cells, o.Flag)))
+	c.cw.Write(safe(append(head, Columns[2:]...)))
+	return c
+}
+
+// safe passes every cell through csvsafe.Cell, in place.
+func safe(cells []string) []string {
+	for i, c := range cells {
+		cells[i] = csvsafe.Cell(c)
 	}
-	cw.Flush()
-	return cw.Error()
+	return cells
+}
+
+// Write writes one row; errors are reported by Flush.
+func (c *CSVWriter) Write(o Row) {
+	c.cells = append(c.cells[:0], o.Fields...)
+	for len(c.cells) < c.nf {
+		c.cells = append(c.cells, "")
+	}
+	c.cells = append(c.cells, ZText(o.Z), CentileText(o.Centile))
+	if c.cond {
+		z, cen := math.NaN(), math.NaN()
+		if o.Cond != nil {
+			z, cen = o.Cond.Z, o.Cond.Centile
+		}
+		c.cells = append(c.cells, ZText(z), CentileText(cen))
+	}
+	c.cw.Write(safe(append(c.cells, o.Flag)))
+}
+
+// Flush writes what is buffered and returns the first write error.
+func (c *CSVWriter) Flush() error {
+	c.cw.Flush()
+	return c.cw.Error()
 }
 
 // WriteJSON writes the rows as one JSON document with the reference's
