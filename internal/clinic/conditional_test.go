@@ -5,6 +5,8 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"net/http"
+	"net/url"
 	"strconv"
 	"strings"
 	"testing"
@@ -87,4 +89,51 @@ func TestAPIConditional(t *testing.T) {
 	if _, has := out[3]["cond_z"]; has {
 		t.Errorf("item without a child has a conditional score: %v", out[3])
 	}
+}
+
+// TestPageGrowthCentiles: with a conditional model, the page's trajectory
+// gives each visit after the first the conditional centile of its change
+// (the values of curve.ScoreChanges for one child), the first a dash; a
+// reference without the model shows no such column.
+func TestPageGrowthCentiles(t *testing.T) {
+	h, r := condHandler(t)
+	ages := []float64{10, 14, 17}
+	vals := []float64{testMean("F", 10), testMean("F", 14) - 0.5, testMean("F", 17) - 1.2}
+	form := url.Values{"ref": {"weight"}, "stratum": {"F"}}
+	d := &curve.Data{}
+	for i := range ages {
+		form.Add("age", strconv.FormatFloat(ages[i], 'g', -1, 64))
+		form.Add("value", strconv.FormatFloat(vals[i], 'g', -1, 64))
+		d.Age, d.Value = append(d.Age, ages[i]), append(d.Value, vals[i])
+		d.Stratum, d.Subject = append(d.Stratum, "F"), append(d.Subject, "k")
+	}
+	rec := postForm(t, h, form)
+	page := rec.Body.String()
+	if rec.Code != 200 || !strings.Contains(page, "Growth centile") {
+		t.Fatalf("status %d, no growth column:\n%s", rec.Code, page)
+	}
+	want := r.ScoreChanges(d)
+	if want[0].Err == nil || want[1].Err != nil || want[2].Err != nil {
+		t.Fatalf("ScoreChanges: %+v", want)
+	}
+	for _, s := range want[1:] {
+		cell := `data-label="Growth centile">` + fmtCentile(s.Centile) + `<`
+		if !strings.Contains(page, cell) {
+			t.Errorf("page lacks %q", cell)
+		}
+	}
+	if !strings.Contains(page, `data-label="Growth centile" title="no earlier visit of this child in the request">—<`) {
+		t.Errorf("first visit's growth cell is not a dash with its reason")
+	}
+	plain := newTestHandlerNoCond(t)
+	if rec := postForm(t, plain, form); strings.Contains(rec.Body.String(), "Growth centile") {
+		t.Errorf("a reference without a conditional model shows a growth column")
+	}
+}
+
+// newTestHandlerNoCond serves the hand reference alone, without a
+// conditional model.
+func newTestHandlerNoCond(t *testing.T) http.Handler {
+	t.Helper()
+	return NewHandler([]*curve.Reference{handReference(t)}, []string{"weight"}, Options{})
 }

@@ -3,6 +3,7 @@ package clinic
 import (
 	"bytes"
 	"cmp"
+	"errors"
 	"fmt"
 	"html/template"
 	"math"
@@ -57,9 +58,12 @@ type rowView struct {
 type resultView struct {
 	Visit                      int
 	Age, Value, Z, Centile, Dz string
-	Flags                      []string
-	Note                       string
-	Warn                       bool
+	// Growth is the conditional centile of the change since the previous
+	// visit (curve.ScoreChanges), or "—"; GrowthNote says why it is blank.
+	Growth, GrowthNote string
+	Flags              []string
+	Note               string
+	Warn               bool
 }
 
 // pageData is what the page template shows.
@@ -75,6 +79,7 @@ type pageData struct {
 	Rows       []rowView
 	Results    []resultView
 	Scored     bool
+	Growth     bool // the reference has a conditional model for the stratum: show growth centiles
 	HasErrors  bool
 	Latest     *resultView // the last scored visit, shown first
 	Chart      template.HTML
@@ -289,6 +294,10 @@ func (h *handler) scorePage(pd *pageData, rows []rowView) {
 		pd.Fail, pd.Scored, pd.Results = err.Error(), false, nil
 		return
 	}
+	if st.Conditional != nil {
+		pd.Growth = true
+		growth(ref, st, audit, pd.Results) // audit holds the results in the order of pd.Results
+	}
 	pd.Latest = &pd.Results[len(pd.Results)-1]
 	big, err := chartSVG(ref, st, pts, pageChart)
 	if err == nil {
@@ -301,6 +310,36 @@ func (h *handler) scorePage(pd *pageData, rows []rowView) {
 		return
 	}
 	pd.Chart = template.HTML(inlineSVG(big))
+}
+
+// growth fills the conditional centile of each scored visit's change since
+// the child's previous visit into views (one per result, same order): the
+// visits of the page are one child's.
+func growth(ref *curve.Reference, st *curve.Stratum, res []result, views []resultView) {
+	d := &curve.Data{}
+	var at []int
+	for i, r := range res {
+		if r.Z == nil {
+			continue
+		}
+		d.Age, d.Value = append(d.Age, r.Age), append(d.Value, r.Value)
+		d.Stratum, d.Subject = append(d.Stratum, st.Name), append(d.Subject, "child")
+		at = append(at, i)
+	}
+	for i := range views {
+		views[i].Growth = "—"
+	}
+	for j, s := range ref.ScoreChanges(d) {
+		v := &views[at[j]]
+		if s.Err != nil {
+			v.GrowthNote = changeNote(s.Err)
+			if !errors.Is(s.Err, curve.ErrNoPrevious) { // a first visit needs no remark
+				v.Flags = append(v.Flags, "no growth centile: "+v.GrowthNote)
+			}
+			continue
+		}
+		v.Growth = fmtCentile(s.Centile)
+	}
 }
 
 // placeError puts err beside the field it concerns on row rv.
