@@ -39,6 +39,11 @@ func TestBuildAndScoreConditional(t *testing.T) {
 			t.Errorf("build: %v", err)
 		}
 	}
+	// The report shows the conditional charts of both strata.
+	rep := readFile(t, filepath.Join(dir, "out", "report.html"))
+	if !strings.Contains(rep, "Growth since the previous visit") || strings.Count(rep, "<svg") < 6 {
+		t.Errorf("report lacks the conditional charts (%d inline SVGs)", strings.Count(rep, "<svg"))
+	}
 	// conditional.csv: the conditional centiles of the next measurement
 	// increase across its columns (non-crossing) on every row.
 	head, rows := readCSV(t, readFile(t, filepath.Join(dir, "out", "conditional.csv")))

@@ -311,7 +311,7 @@ func TestBuild(t *testing.T) {
 	for _, want := range []string{"Q-tests", "implausible against a first-pass fit", "This reference describes the sample",
 		"Schwarz criterion", "Sampling weights were not used", "effective df (median)", "Smoothness values tried: female",
 		"Expected normal score", "Observed minus expected z", "sd_curves = true",
-		"Age scales tried", "was chosen from the data", ">+2 SD<", ">−2 SD<"} {
+		"Age scales tried", "was chosen from the data", ">+2 SD<", ">−2 SD<", ">+3 SD<", ">−3 SD<"} {
 		if !strings.Contains(rep, want) {
 			t.Errorf("report lacks %q", want)
 		}

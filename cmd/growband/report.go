@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bytes"
 	"fmt"
 	"html/template"
 	"io"
@@ -10,6 +11,7 @@ import (
 	"time"
 
 	"growband/curve"
+	"growband/render"
 )
 
 // reportCSS keeps the report readable on screen and in print without any
@@ -86,6 +88,11 @@ is chosen.</p>
 <code>sd_curves = true</code> in the plan's <code>[output]</code> table; for one chart, or a part of the age range:
 <code>growband chart --ref reference.json --sd-curves --ages 0:24 --out chart.png</code>.</p>
 
+{{if .Conditional}}<h2>Growth since the previous visit</h2>
+<p>For a child measured at the age named on each chart, the centiles of the measurement one gap later,
+given the earlier measurement (the reference's conditional model; its table is conditional.csv).</p>
+{{range .Conditional}}<figure>{{.}}</figure>
+{{end}}{{end}}
 {{if .Bands}}<h2>Bootstrap bands</h2>
 <p>Each chart centile carries a pointwise 95% band from {{.Replicates}} bootstrap replicates
 ({{.Resampled}} drawn with replacement, each centile refitted without the roughness penalty and,
@@ -256,6 +263,23 @@ func (b *built) report(w io.Writer, charts, worms [][]byte) error {
 		}
 	}
 	data["Charts"], data["Worms"] = ch, wm
+	var conds []template.HTML
+	for i := range r.Strata {
+		st := &r.Strata[i]
+		if st.Conditional == nil {
+			continue
+		}
+		fig, err := b.conditionalFigure(st)
+		if err != nil {
+			continue // the build's notes say why (writeConditionalCharts)
+		}
+		var svg bytes.Buffer
+		if err := render.Write(&svg, fig, "svg", 0, 0); err != nil {
+			return fmt.Errorf("conditional chart of stratum %q: %w", st.Name, err)
+		}
+		conds = append(conds, inlineSVG(svg.Bytes()))
+	}
+	data["Conditional"] = conds
 
 	var cov []reportCoverage
 	for _, g := range b.diag.Groups {

@@ -35,8 +35,7 @@ type Options struct {
 	AgeLo, AgeHi float64
 	// Points is the number of ages per curve; 0 means DefaultPoints.
 	Points int
-	// SDCurves adds dashed curves at -3, -2, +2 and +3 SD where the
-	// stratum's tau grid reaches them (a size-guarded grid may not).
+	// SDCurves adds dashed curves at -3, -2, +2 and +3 SD.
 	SDCurves bool
 	// Centiles, when not nil, replaces the stratum's chart centiles (tau in
 	// (0,1)).
@@ -87,21 +86,15 @@ func Centiles(r *curve.Reference, st *curve.Stratum, opt *Options) (*render.Cent
 		}
 	}
 	if o.SDCurves {
-		var sdTaus []float64
-		var labels []string
+		// The reference's distribution reaches every z (beyond its body the
+		// tail model carries it, curve.Tail), so every whole-SD curve is
+		// drawn; one the tail model cannot give (a measure whose Box–Cox
+		// tail ends first) is left out with a note.
 		for _, z := range sdLevels {
 			tau := distuv.UnitNormal.CDF(z)
-			if st.LMS == nil && len(st.Taus) > 0 && (tau < st.Taus[0] || tau > st.Taus[len(st.Taus)-1]) {
-				notes = append(notes, fmt.Sprintf("the %+g SD curve (centile %s) lies outside the fitted centiles %s–%s of %s and is not drawn",
-					z, centileText(100*tau), centileText(100*st.Taus[0]), centileText(100*st.Taus[len(st.Taus)-1]), nameOr(st.Name)))
-				continue
-			}
-			sdTaus = append(sdTaus, tau)
-			labels = append(labels, strings.Replace(fmt.Sprintf("%+g SD", z), "-", "−", 1)) // a minus sign
-		}
-		if len(sdTaus) > 0 {
-			if err := addCurves(c, r, st, ages, sdTaus, labels); err != nil {
-				return nil, nil, err
+			label := strings.Replace(fmt.Sprintf("%+g SD", z), "-", "−", 1) // a minus sign
+			if err := addCurves(c, r, st, ages, []float64{tau}, []string{label}); err != nil {
+				notes = append(notes, fmt.Sprintf("the %+g SD curve of %s is not drawn: %v", z, nameOr(st.Name), err))
 			}
 		}
 	}
