@@ -178,6 +178,17 @@ const (
 	// before a curve turning the other way counts as a hook (common
 	// practice for a clearly signed effect).
 	HookZ = 3
+	// EdgeMinSD: the least departure, in local SDs (sigma, as in the tie
+	// check), that a bend or a hook must reach to count. With hundreds of
+	// thousands of rows in an end window the standard errors shrink until
+	// departures no chart can show, and no scoring notices, are
+	// "significant"; a tenth of an SD is half the accuracy asked of the
+	// centiles at the ends of the range (0.2 z), so a smaller departure is
+	// not a problem worth stopping a build for.
+	EdgeMinSD = 0.1
+	// edgeHookPoints: ages at which the curve is read across an end window
+	// to measure how far it turns back.
+	edgeHookPoints = 21
 	// EdgeMinRows: fewest rows of an end window (common practice: about
 	// ten observations per parameter of a straight line, times the tail
 	// fraction; 40 rows put 1.2 rows beyond the 3rd centile).
@@ -359,7 +370,7 @@ func checkEnd(r *Reference, st *Stratum, g *rows, from, to int, end float64) ([]
 			return nil, err
 		}
 		curveSlope := (qi - qe) / (inner - end)
-		if math.Abs(curveSlope-dataSlope) > EdgeSlopeZ*se {
+		if d := math.Abs(curveSlope - dataSlope); d > EdgeSlopeZ*se && d*math.Abs(inner-end) > EdgeMinSD*sigma {
 			out = append(out, EdgeProblem{Stratum: st.Name, Kind: "bend", Tau: tau, Age: end,
 				Detail: fmt.Sprintf("the curve's mean slope %.3g per age unit over ages %.4g–%.4g against %.3g ± %.2g (1 SE) in the data",
 					curveSlope, min(inner, end), max(inner, end), dataSlope, se)})
@@ -369,11 +380,43 @@ func checkEnd(r *Reference, st *Stratum, g *rows, from, to int, end float64) ([]
 			return nil, err
 		}
 		if v*dataSlope < 0 && math.Abs(dataSlope) > HookZ*se {
-			out = append(out, EdgeProblem{Stratum: st.Name, Kind: "hook", Tau: tau, Age: end,
-				Detail: fmt.Sprintf("the curve's slope at the end is %.3g per age unit while the data near the end rise at %.3g ± %.2g (1 SE)", v, dataSlope, se)})
+			back, err := turnBack(r, st.Name, tau, end, inner, dataSlope)
+			if err != nil {
+				return nil, err
+			}
+			if back > EdgeMinSD*sigma {
+				out = append(out, EdgeProblem{Stratum: st.Name, Kind: "hook", Tau: tau, Age: end,
+					Detail: fmt.Sprintf("the curve's slope at the end is %.3g per age unit, turning back by %.2g SD, while the data near the end rise at %.3g ± %.2g (1 SE)",
+						v, back/sigma, dataSlope, se)})
+			}
 		}
 	}
 	return out, nil
+}
+
+// turnBack returns how far the curve of tau runs against the data's
+// direction (the sign of dataSlope) between the end age and the inner age
+// of an end window: the largest amount by which it lies beyond its own end
+// value on the side the data say it should not (above it at the upper end
+// of the range when the data rise, and so on), 0 when it never does.
+func turnBack(r *Reference, stratum string, tau, end, inner, dataSlope float64) (float64, error) {
+	qe, err := r.Quantile(stratum, end, tau)
+	if err != nil {
+		return 0, err
+	}
+	// Moving from the end into the range, rising data (with the end below
+	// the range) should make the curve rise: sign +1; the other cases follow.
+	dir := math.Copysign(1, dataSlope) * math.Copysign(1, inner-end)
+	back := 0.0
+	for k := 1; k < edgeHookPoints; k++ {
+		a := end + (inner-end)*float64(k)/(edgeHookPoints-1)
+		q, err := r.Quantile(stratum, a, tau)
+		if err != nil {
+			return 0, err
+		}
+		back = max(back, -dir*(q-qe))
+	}
+	return back, nil
 }
 
 // normalPDF is the standard normal density.
