@@ -68,11 +68,12 @@ func benchStratum(b *testing.B, n int) {
 	const lsqRepeats = 5 // average the fast yardstick over a few runs
 	for b.Loop() {
 		t0 := time.Now()
-		ref, err := Fit(d, nil)
+		built, err := Build(d, commandDefaults())
 		if err != nil {
 			b.Fatal(err)
 		}
 		fit += time.Since(t0)
+		ref := built.Reference
 		benchRef = ref
 		t1 := time.Now()
 		for range lsqRepeats {
@@ -87,3 +88,11 @@ func benchStratum(b *testing.B, n int) {
 
 func BenchmarkBuildStratum1e5(b *testing.B) { benchStratum(b, 100000) }
 func BenchmarkBuildStratum1e6(b *testing.B) { benchStratum(b, 1000000) }
+
+// commandDefaults are the settings `growband build` passes to Build for a
+// plan that sets nothing (cmd/growband buildSettings on intake's defaults):
+// knots, penalty and age scale chosen from the data, the screen at
+// DefaultScreenZ, edge problems failing the build.
+func commandDefaults() *BuildSettings {
+	return &BuildSettings{Fit: Settings{AgeScale: AgeScale{Kind: ScaleAuto}, Penalty: PenaltyAuto}}
+}

@@ -16,6 +16,7 @@ import (
 
 	"growband/curve"
 	"growband/internal/intake"
+	"growband/internal/refchart"
 	"growband/render"
 )
 
@@ -289,7 +290,7 @@ func (b *built) writeFiles(prog progress) error {
 	charts := make([][]byte, len(b.ref.Strata))
 	for i := range b.ref.Strata {
 		st := &b.ref.Strata[i]
-		fig, err := centileFigure(b.ref, st, b.points(st.Name), nil)
+		fig, err := stratumFigure(b.ref, st, &refchart.Options{SDCurves: b.plan.Output.SDCurves}, b.points(st.Name), nil, progress{})
 		if err != nil {
 			return fmt.Errorf("chart of stratum %q: %w", st.Name, err)
 		}

@@ -113,6 +113,7 @@ step = 6
 [output]
 charts = ["svg", "png"]
 points = true
+sd_curves = true
 `
 
 // Rows appended to the fixture: a missing value, a value that is not a
@@ -309,7 +310,8 @@ func TestBuild(t *testing.T) {
 	}
 	for _, want := range []string{"Q-tests", "implausible against a first-pass fit", "This reference describes the sample",
 		"Schwarz criterion", "Sampling weights were not used", "effective df (median)", "Smoothness values tried: female",
-		"Expected normal score", "Observed minus expected z", "--sd-curves"} {
+		"Expected normal score", "Observed minus expected z", "sd_curves = true",
+		"Age scales tried", "was chosen from the data", ">+2 SD<", ">−2 SD<"} {
 		if !strings.Contains(rep, want) {
 			t.Errorf("report lacks %q", want)
 		}
@@ -322,6 +324,9 @@ func TestBuild(t *testing.T) {
 	}
 	if !strings.Contains(f.summary, "Schwarz criterion") {
 		t.Errorf("summary does not name the criterion in words:\n%s", f.summary)
+	}
+	if n := strings.Count(rep, ">chosen scale<"); n != 1 {
+		t.Errorf("report marks %d chosen age scales, want one", n)
 	}
 	if n := strings.Count(rep, "<td class=\"l\">chosen</td>"); n != 2 {
 		t.Errorf("report marks %d chosen smoothness values, want one per stratum", n)

@@ -297,9 +297,10 @@ func TestParquetBuild(t *testing.T) {
 	}
 	dir := t.TempDir()
 	os.WriteFile(filepath.Join(dir, "survey.csv"), district.CSV(), 0o644)
-	// The plan as the demo ships it, uncoded strata and all; what is
-	// compared is the reading, so edge problems of the fit are accepted.
-	csvPlan := strings.Replace(string(district.Plan(district.Weight)), "[fit]\n", "[fit]\naccept_edge_problems = true\n", 1)
+	// The plan leaves the sex codes unmapped (four small strata), whose
+	// curves tie near birth: the edge checks would stop both builds, and
+	// the comparison is of the two readers, so the plan accepts them.
+	csvPlan := string(district.Plan(district.Weight)) + "accept_edge_problems = true\n"
 	os.WriteFile(filepath.Join(dir, "csv.toml"), []byte(csvPlan), 0o644)
 	mustGB(t, dir, "build", "csv.toml", "--out", "csv", "--quiet")
 	recs, err := csv.NewReader(bytes.NewReader(district.CSV())).ReadAll()

@@ -68,12 +68,22 @@ weights lambda at the best count; {{.Rule}}. The chosen value is marked.</p>
 {{range .Rows}}<tr><td>{{.Knots}}</td><td>{{.Lambda}}</td><td>{{.Score}}</td><td>{{.EDF}}</td><td class="l">{{if .Chosen}}chosen{{end}}</td></tr>
 {{end}}</table>
 {{end}}
+{{if .Scales}}<h3>Age scales tried</h3>
+<p class="meta">Each candidate scale scored by the smoothness criterion summed over strata (lower is
+better); the best whose curves pass the edge checks (no ties, hooks or bends the data do not show)
+is chosen.</p>
+<table>
+<tr><th class="l">age scale</th><th>criterion</th><th>edge problems</th><th class="l"></th></tr>
+{{range .Scales}}<tr><td class="l">{{.Scale}}</td><td>{{.Score}}</td><td>{{.Problems}}</td><td class="l">{{if .Chosen}}chosen scale{{end}}</td></tr>
+{{end}}</table>
+{{end}}
 {{range .Notes}}<p class="meta">Note: {{.}}</p>
 {{end}}
 
 <h2>Centile charts</h2>
 {{range .Charts}}<figure>{{.}}</figure>
-{{end}}<p class="meta">To draw the curves at &minus;3, &minus;2, +2 and +3 SD as well, or a part of the age range:
+{{end}}<p class="meta">To draw the curves at &minus;3, &minus;2, +2 and +3 SD on these charts, set
+<code>sd_curves = true</code> in the plan's <code>[output]</code> table; for one chart, or a part of the age range:
 <code>growband chart --ref reference.json --sd-curves --ages 0:24 --out chart.png</code>.</p>
 
 {{if .Bands}}<h2>Bootstrap bands</h2>
@@ -221,6 +231,21 @@ func (b *built) report(w io.Writer, charts, worms [][]byte) error {
 		data["Weights"] = fmt.Sprintf("Sampling weights (column %q) were used: each row counts by its weight in the fit, the smoothness criterion (at Kish's effective sample size) and the diagnostics' shares.", w)
 	}
 	data["ScaleChoice"] = fmt.Sprintf("The age scale (curves in %s) is set by the plan, not chosen by a criterion.", scaleText(r))
+	if len(b.scales) > 0 {
+		data["ScaleChoice"] = fmt.Sprintf("The age scale (curves in %s) was chosen from the data by the same criterion (see the age scales tried below).", scaleText(r))
+		var rows []scaleRow
+		for _, c := range b.scales {
+			row := scaleRow{Scale: c.Scale.String(), Score: fmt.Sprintf("%.6g", c.Score), Problems: fmt.Sprint(c.Problems), Chosen: c.Chosen}
+			switch {
+			case c.Err != "":
+				row.Score, row.Problems = "unusable: "+c.Err, ""
+			case c.Problems < 0:
+				row.Problems = "not fitted (a better candidate passed)"
+			}
+			rows = append(rows, row)
+		}
+		data["Scales"] = rows
+	}
 	var ch, wm []template.HTML
 	for _, c := range charts {
 		ch = append(ch, inlineSVG(c))
@@ -376,6 +401,12 @@ type candidateRow struct {
 type candidateTable struct {
 	Name, Criterion, Rule string
 	Rows                  []candidateRow
+}
+
+// scaleRow is one candidate age scale in the report.
+type scaleRow struct {
+	Scale, Score, Problems string
+	Chosen                 bool
 }
 
 // candidateTables lists, per stratum, the smoothness values tried with

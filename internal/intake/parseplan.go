@@ -92,6 +92,7 @@ type rawTable struct {
 type rawOutput struct {
 	Charts raw `toml:"charts"`
 	Points raw `toml:"points"`
+	SD     raw `toml:"sd_curves"`
 }
 
 // planKeys lists the known tables and keys ("input", "input.file", ...),

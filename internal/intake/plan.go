@@ -110,6 +110,9 @@ type AgeGrid struct {
 type Output struct {
 	Charts []string // formats among "svg", "png", "pdf"; empty = no charts
 	Points bool     // draw the data points on charts
+	// SDCurves draws the curves at -3, -2, +2 and +3 SD on the build's
+	// charts as well.
+	SDCurves bool
 }
 
 // Defaults applied by ParsePlan.

@@ -391,5 +391,8 @@ func (d *planDecoder) output(rp *rawPlan) Output {
 	if r.Points.set {
 		o.Points, _ = d.boolean("output.points", r.Points)
 	}
+	if r.SD.set {
+		o.SDCurves, _ = d.boolean("output.sd_curves", r.SD)
+	}
 	return o
 }
