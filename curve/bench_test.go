@@ -45,15 +45,7 @@ func lsqFit(b testing.TB, d *Data, ref *Reference) []float64 {
 			}
 		}
 	}
-	var ch mat.Cholesky
-	if !ch.Factorize(xtx) {
-		b.Fatal("least squares: normal equations not positive definite")
-	}
-	var coef mat.VecDense
-	if err := ch.SolveVecTo(&coef, xty); err != nil {
-		b.Fatal(err)
-	}
-	return coef.RawVector().Data
+	return solveNormal(b, xtx, xty)
 }
 
 // benchStratum fits one stratum of n LMS rows with the defaults — chart set,
@@ -95,4 +87,18 @@ func BenchmarkBuildStratum1e6(b *testing.B) { benchStratum(b, 1000000) }
 // DefaultScreenZ, edge problems failing the build.
 func commandDefaults() *BuildSettings {
 	return &BuildSettings{Fit: Settings{AgeScale: AgeScale{Kind: ScaleAuto}, Penalty: PenaltyAuto}}
+}
+
+// solveNormal solves the least-squares normal equations xtx b = xty of a
+// yardstick by Cholesky factorisation.
+func solveNormal(b testing.TB, xtx *mat.SymDense, xty *mat.VecDense) []float64 {
+	var ch mat.Cholesky
+	if !ch.Factorize(xtx) {
+		b.Fatal("least squares: normal equations not positive definite")
+	}
+	var coef mat.VecDense
+	if err := ch.SolveVecTo(&coef, xty); err != nil {
+		b.Fatal(err)
+	}
+	return coef.RawVector().Data
 }

@@ -42,15 +42,7 @@ func condLSQ(b *testing.B, ref *Reference, d *Data) []float64 {
 		xtx.SymRankOne(xtx, 1, rv)
 		xty.AddScaledVec(xty, pr.zt, rv)
 	}
-	var ch mat.Cholesky
-	if !ch.Factorize(xtx) {
-		b.Fatal("least squares: normal equations not positive definite")
-	}
-	var coef mat.VecDense
-	if err := ch.SolveVecTo(&coef, xty); err != nil {
-		b.Fatal(err)
-	}
-	return coef.RawVector().Data
+	return solveNormal(b, xtx, xty)
 }
 
 // benchConditional fits the conditional model (the default 25-tau grid,

@@ -4,6 +4,8 @@ import (
 	"errors"
 	"math"
 	"math/rand/v2"
+	"os"
+	"path/filepath"
 	"strconv"
 	"strings"
 	"testing"
@@ -15,20 +17,15 @@ import (
 )
 
 // testTable is a small LMS table written for the tests (invented numbers of
-// a plausible shape; growband ships no third-party tables).
-const testTable = `# age_unit = months
-# measure = weight
-# unit = kg
-sex,age,L,M,S
-boys,0,0.35,3.3,0.146
-boys,12,0.05,9.6,0.11
-boys,24,-0.1,12.2,0.108
-boys,60,-0.25,18.3,0.12
-girls,0,0.38,3.2,0.141
-girls,12,0.0,8.9,0.115
-girls,24,-0.15,11.5,0.113
-girls,60,-0.3,18.2,0.125
-`
+// a plausible shape; growband ships no third-party tables), shared with the
+// command's tests.
+var testTable = func() string {
+	b, err := os.ReadFile(filepath.Join("..", "..", "testdata", "invented-weight-lms.csv"))
+	if err != nil {
+		panic(err)
+	}
+	return string(b)
+}()
 
 func testRef(t testing.TB) *curve.Reference {
 	t.Helper()
