@@ -263,7 +263,7 @@ func BenchmarkScoreTails(b *testing.B) {
 	ages, vals := make([]float64, 1024), make([]float64, 1024)
 	for i := range ages {
 		ages[i] = st.AgeMin + (st.AgeMax-st.AgeMin)*rng.Float64()
-		vals[i] = weightLike.quantile(ages[i], normP(3*rng.NormFloat64()))
+		vals[i] = weightLike.quantile(ages[i], normP(min(max(3*rng.NormFloat64(), -5), 5)))
 	}
 	b.ResetTimer()
 	for i := 0; b.Loop(); i++ {

@@ -5,6 +5,7 @@ import (
 	"math"
 	"sort"
 	"strings"
+	"sync"
 
 	"growband/spline"
 )
@@ -100,9 +101,14 @@ func (r *Reference) Score(stratum string, age, value float64) (Score, error) {
 	if err != nil {
 		return Score{}, err
 	}
-	var ws scoreSpace
+	ws := scoreSpaces.Get().(*scoreSpace)
+	defer scoreSpaces.Put(ws)
 	return ws.score(r, st, b, age, value)
 }
+
+// scoreSpaces recycles the scratch of single scores, which clinics and
+// batch uploads make one row at a time.
+var scoreSpaces = sync.Pool{New: func() any { return new(scoreSpace) }}
 
 // scoreSpace is the scratch of one scoring: basis values and the fitted
 // quantiles at the age.
