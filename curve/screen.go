@@ -71,7 +71,7 @@ func robustZ(d *Data, c *config) ([]float64, error) {
 	pl := newPool(cs.workers)
 	err = parallel(len(groups), func(g int) error {
 		r := groups[g]
-		ch, err := chooseSmoothness(pl, r, &cs)
+		ch, err := smoothFor(pl, r, &cs)
 		if err != nil {
 			return fmt.Errorf("stratum %q: screening fit: %w", r.name, err)
 		}

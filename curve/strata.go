@@ -110,43 +110,53 @@ func (r *rows) sample(m int, seed uint64) *rows {
 	return s
 }
 
+// smoothFor fixes the smoothness of the stratum r, on an age-stratified
+// sample of c.selectRows rows when r is larger and the settings leave
+// something to choose, and returns the choice with the model of all of r's
+// rows: the chosen knot count placed at the quantiles of all the ages (as
+// without sampling), lambda in the units of all the weights. The reference's
+// fit and the implausibility screen's both choose this way.
+func smoothFor(pl *pool, r *rows, c *config) (*choice, error) {
+	n := len(r.y)
+	sel := r
+	if n > c.selectRows && choosesSmoothness(c) {
+		sel = r.sample(c.selectRows, c.seed)
+		c.prog.printf("stratum %q: %d rows, choosing smoothness on an age-stratified sample of %d", r.name, n, c.selectRows)
+	} else {
+		c.prog.printf("stratum %q: %d rows, choosing smoothness", r.name, n)
+	}
+	ch, err := chooseSmoothness(pl, sel, c)
+	if err != nil || sel == r {
+		return ch, err
+	}
+	interior := ch.model.interior
+	if c.knotT == nil {
+		if k, err := spline.QuantileKnots(r.t, len(interior)); err == nil && len(k) == len(interior) {
+			interior = k
+		}
+	}
+	if ch.model, err = newModel(r, interior, c.degree, c.order); err != nil {
+		return nil, err
+	}
+	total, _ := r.weight()
+	part, _ := sel.weight()
+	ch.smooth.Lambda *= total / part
+	ch.median = nil
+	return ch, nil
+}
+
 // fitStratum runs the whole fit of one stratum: smoothness, guard, tau grid,
 // bands.
 func fitStratum(pl *pool, r *rows, c *config) (*Stratum, error) {
 	n := len(r.y)
-	sel := r
 	ch := c.chosen[r.name]
 	var err error
 	if ch == nil {
-		if n > c.selectRows && choosesSmoothness(c) {
-			sel = r.sample(c.selectRows, c.seed)
-			c.prog.printf("stratum %q: %d rows, choosing smoothness on an age-stratified sample of %d", r.name, n, c.selectRows)
-		} else {
-			c.prog.printf("stratum %q: %d rows, choosing smoothness", r.name, n)
-		}
-		if ch, err = chooseSmoothness(pl, sel, c); err != nil {
+		if ch, err = smoothFor(pl, r, c); err != nil {
 			return nil, err
 		}
 	}
 	m := ch.model
-	if sel != r {
-		// The final fit is on every row: the chosen knot count placed at
-		// the quantiles of all the ages (as without sampling), lambda in
-		// the units of all the weights.
-		interior := ch.model.interior
-		if c.knotT == nil {
-			if k, err := spline.QuantileKnots(r.t, len(interior)); err == nil && len(k) == len(interior) {
-				interior = k
-			}
-		}
-		if m, err = newModel(r, interior, c.degree, c.order); err != nil {
-			return nil, err
-		}
-		total, _ := r.weight()
-		part, _ := sel.weight()
-		ch.smooth.Lambda *= total / part
-		ch.median = nil
-	}
 	windows := guardWindows(r, c.windows, c.scale)
 	taus, dropped := tauGrid(c.chart, windows, c.guardMin)
 	flags := append(chartFlags(c.chart, windows, c.guardMin), dropped...)
