@@ -28,13 +28,13 @@
 // machine's time and memory, while the per-tau grid already scales and stays
 // exact; the tail fit works on the fitted curves, so its cost does not grow
 // with n. Measured in tail_test.go on a Box–Cox normal truth (weight-like,
-// 0–60 months, n = 20,000): children with 2 <= |true z| <= 3.5 scored 0.039 z
-// off on average, against 0.124 for the former rule (the line through the
+// 0–60 months, n = 20,000): children with 2 <= |true z| <= 3.5 scored 0.041 z
+// off on average, against 0.113 for the former rule (the line through the
 // two outermost fitted quantiles, extended); on truths that are not Box–Cox
 // normal (a skewed mixture, a height model whose skewness changes sign
-// through puberty; 15,000 a sex) the chart centiles were 0.034–0.061 z off
-// on average, 0.062–0.075 for a Box–Cox normal fitted to the same data by
-// maximum likelihood.
+// through puberty; 15,000 a sex) the chart centiles were 0.026–0.042 z off
+// on average, 0.050–0.073 for a Box–Cox normal fitted to the same data by
+// maximum likelihood (through Build with the command's defaults).
 //
 // A measurement is scored by locating it among the fitted quantiles at its
 // age (or in the tail model beyond them) and mapping its level to a z-score,
