@@ -123,6 +123,10 @@ type ScaleChoice struct {
 	Problems int
 	Chosen   bool
 	Err      string // why the candidate could not be scored, if so
+	// Thin says why the candidate was passed over for resting its curves
+	// at an end of the age range on too few rows (see EndSupportRatio); ""
+	// when it was not.
+	Thin string
 }
 
 // scaleSampleRows is the number of rows above which candidate age scales
@@ -159,7 +163,12 @@ func ageScaleCandidates(ages []float64, ageUnit string) []AgeScale {
 // strata. The check loss is measured on the same values whatever the scale,
 // so the criterion compares scales as it compares knot counts: a scale that
 // lets fewer coefficients follow early infancy and the later years alike
-// scores better. Candidates are then fitted in order of their score and the
+// scores better. A candidate whose curves at an end of the range rest on
+// fewer than 1/EndSupportRatio of the rows' worth that the best-supported
+// candidate's rest on there (endSupport, computed from its knots before
+// any fit) is passed over, with the reason in ScaleChoice.Thin: the
+// criterion, summed over all rows, hardly sees a scale that leaves the
+// curves at birth to a few dozen newborns. Candidates are then fitted in order of their score and the
 // first whose fit passes the edge checks (CheckEdges) is chosen; a scale
 // whose curves tie, hook or bend where the data do not is passed over even
 // when its criterion is lower. When none passes, the best-scored one is
@@ -198,6 +207,7 @@ func chooseScale(d *Data, fs *Settings) (*Reference, []ScaleChoice, []EdgeProble
 	prog := &progress{w: fs.Progress}
 	choices := make([]ScaleChoice, len(cands))
 	chosen := make([]map[string]*choice, len(cands))
+	support := make([]map[string][2]float64, len(cands))
 	var firstErr error
 	for i, sc := range cands {
 		choices[i] = ScaleChoice{Scale: sc, Score: math.NaN(), Problems: -1}
@@ -205,7 +215,7 @@ func chooseScale(d *Data, fs *Settings) (*Reference, []ScaleChoice, []EdgeProble
 		s.AgeScale, s.Progress = sc, nil
 		c, err := s.resolve()
 		if err == nil {
-			chosen[i], choices[i].Score, err = scoreScale(sample, c)
+			chosen[i], support[i], choices[i].Score, err = scoreScale(sample, c)
 		}
 		if err != nil {
 			choices[i].Err = err.Error()
@@ -225,6 +235,7 @@ func chooseScale(d *Data, fs *Settings) (*Reference, []ScaleChoice, []EdgeProble
 	if len(order) == 0 {
 		return nil, choices, nil, fmt.Errorf("no usable age scale: %w", firstErr)
 	}
+	order = passOverThin(order, cands, support, choices)
 	slices.SortStableFunc(order, func(a, b int) int { return cmp.Compare(choices[a].Score, choices[b].Score) })
 	var bestRef *Reference
 	var bestProblems []EdgeProblem
@@ -263,11 +274,12 @@ func chooseScale(d *Data, fs *Settings) (*Reference, []ScaleChoice, []EdgeProble
 }
 
 // scoreScale chooses the smoothness of every stratum of d under c and
-// returns the choices with their summed criterion.
-func scoreScale(d *Data, c *config) (map[string]*choice, float64, error) {
+// returns the choices, the end support of each stratum's curves at its
+// choice as shares of its rows (endSupport), and the summed criterion.
+func scoreScale(d *Data, c *config) (map[string]*choice, map[string][2]float64, float64, error) {
 	groups, _, err := prepare(d, c)
 	if err != nil {
-		return nil, 0, err
+		return nil, nil, 0, err
 	}
 	pl := newPool(c.workers)
 	chs := make([]*choice, len(groups))
@@ -280,15 +292,66 @@ func scoreScale(d *Data, c *config) (map[string]*choice, float64, error) {
 		return nil
 	})
 	if err != nil {
-		return nil, 0, err
+		return nil, nil, 0, err
 	}
 	out := map[string]*choice{}
+	support := map[string][2]float64{}
 	total := 0.0
 	for g, ch := range chs {
 		out[groups[g].name] = ch
 		total += ch.smooth.Score
+		lo, hi, err := endSupport(ch.model, groups[g])
+		if err != nil {
+			return nil, nil, 0, fmt.Errorf("stratum %q: %w", groups[g].name, err)
+		}
+		n := float64(len(groups[g].t))
+		support[groups[g].name] = [2]float64{lo / n, hi / n}
 	}
-	return out, total, nil
+	return out, support, total, nil
+}
+
+// passOverThin removes from order (candidate indices) those whose curves
+// rest at an end of some stratum's range on fewer than 1/EndSupportRatio
+// of the best-supported candidate's rows there, saying why in their
+// ScaleChoice. The best-supported candidate of every end always stays, so
+// order never empties.
+func passOverThin(order []int, cands []AgeScale, support []map[string][2]float64, choices []ScaleChoice) []int {
+	best := map[string][2]float64{}
+	bestBy := map[string][2]int{}
+	for _, i := range order {
+		for name, s := range support[i] {
+			b := best[name]
+			by := bestBy[name]
+			for e := range 2 {
+				if s[e] > b[e] {
+					b[e], by[e] = s[e], i
+				}
+			}
+			best[name], bestBy[name] = b, by
+		}
+	}
+	var kept []int
+	for _, i := range order {
+		thin := ""
+		for name, s := range support[i] {
+			for e, end := range []string{"youngest", "oldest"} {
+				if thin == "" && s[e]*EndSupportRatio < best[name][e] {
+					label := name
+					if label == "" {
+						label = "(all)"
+					}
+					thin = fmt.Sprintf("stratum %s: the curves at the %s age rest on %.2g%% of the rows' worth, against %.2g%% under %s",
+						label, end, 100*s[e], 100*best[name][e], cands[bestBy[name][e]])
+				}
+			}
+		}
+		if thin != "" {
+			choices[i].Thin = thin
+			continue
+		}
+		kept = append(kept, i)
+	}
+	return kept
 }
 
 // String writes the scale as a formula: "age", "age^0.5", "log(age + 1)".

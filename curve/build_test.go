@@ -160,6 +160,24 @@ func TestCheckEdges(t *testing.T) {
 	if p, err := CheckEdges(ref, d); err != nil || len(p) != 0 {
 		t.Fatalf("clean fit: problems %v, error %v", p, err)
 	}
+	// A clean fit where growth bends fast at the end (a simulation from a
+	// stated model: normal, median 50 + 30 (1 - exp(-a/0.9)) + 5a cm, SD 2,
+	// ages 0–10 years, shaped like length after birth): its curves are far
+	// from straight across the end windows, and the data's straight lines
+	// are not their chords, yet nothing is wrong. The bend check compares
+	// the reference's own quantile-regression line with the data's, so it
+	// reports nothing; the former check, the curve's chord against the data
+	// line, reported the 90th centile at birth 4.7 SE off on these data.
+	rng := rand.New(rand.NewPCG(5, 5))
+	bent := &Data{}
+	for range 12000 {
+		a := 10 * rng.Float64()
+		bent.Age = append(bent.Age, a)
+		bent.Value = append(bent.Value, 50+30*(1-math.Exp(-a/0.9))+5*a+2*rng.NormFloat64())
+	}
+	if p, err := CheckEdges(mustFit(t, bent, &Settings{Knots: 10}), bent); err != nil || len(p) != 0 {
+		t.Errorf("clean fit of fast-bending growth: problems %v, error %v", p, err)
+	}
 	kinds := func(p []EdgeProblem) string {
 		var k []string
 		for _, x := range p {
@@ -181,7 +199,9 @@ func TestCheckEdges(t *testing.T) {
 			st.Coef[k] = slices.Clone(st.Coef[i10])
 		}
 	}
-	if p, _ := CheckEdges(ref, d); kinds(p) != "tie" || p[0].Tau != 0.03 || p[0].Tau2 != 0.10 {
+	// (The 3rd centile now runs at the 10th's level, so the bend check may
+	// report it too.)
+	if p, _ := CheckEdges(ref, d); !strings.Contains(kinds(p), "tie") || p[0].Kind != "tie" || p[0].Tau != 0.03 || p[0].Tau2 != 0.10 {
 		t.Errorf("tied 3rd and 10th centiles: %v", p)
 	}
 
@@ -235,7 +255,7 @@ func TestChooseAgeScale(t *testing.T) {
 		t.Fatal(err)
 	}
 	for _, c := range choices {
-		t.Logf("%-16s criterion %.5f problems %d chosen %v", c.Scale, c.Score, c.Problems, c.Chosen)
+		t.Logf("%-16s criterion %.5f problems %d chosen %v %s", c.Scale, c.Score, c.Problems, c.Chosen, c.Thin)
 	}
 	if len(problems) > 0 {
 		t.Errorf("chosen scale has edge problems: %v", problems)

@@ -1,10 +1,10 @@
 package curve
 
 import (
+	"errors"
 	"fmt"
 	"math"
 	"slices"
-	"sort"
 
 	"growband/curve/solver"
 )
@@ -168,11 +168,13 @@ const (
 	// of a few hundred rows moves a gap by well under half (measured on the
 	// demo survey's smallest age windows), a real tie makes it zero.
 	MinGapShare = 0.25
-	// EdgeSlopeZ: standard errors by which the curve's mean slope across an
-	// end window may differ from the data's straight-line slope (4: a
-	// departure that chance alone gives about once in 16,000 per check under
-	// normality, so a build of two strata and seven centiles, 28 checks,
-	// fails by chance about once in 600 builds).
+	// EdgeSlopeZ: standard errors by which the reference's line across an
+	// end window may differ from the data's in level or slope (4: a
+	// departure that chance alone gives about once in 16,000 per test under
+	// normality; a build of two strata checks 2 ends, 3 windows, 7 centiles
+	// and their joint test, level and slope, about 200 tests, largely
+	// dependent (nested windows, neighbouring centiles), so it fails by
+	// chance in at most about one build in 80 and far fewer in practice).
 	EdgeSlopeZ = 4
 	// HookZ: standard errors by which the data slope must differ from zero
 	// before a curve turning the other way counts as a hook (common
@@ -189,6 +191,25 @@ const (
 	// edgeHookPoints: ages at which the curve is read across an end window
 	// to measure how far it turns back.
 	edgeHookPoints = 21
+	// edgeLinePoints: age bins of an end window at which the reference's
+	// own quantile-regression line is computed (the bend check); 41 bins
+	// make the binning's effect on the line far smaller than the data
+	// line's standard error.
+	edgeLinePoints = 41
+	// edgeDensityStep: half-width, in local SDs, of the central difference
+	// of the reference's distribution function that gives its density in
+	// Newton's method for that line.
+	edgeDensityStep = 0.01
+	// edgeLineIterations and edgeLineTol: Newton's method for the line
+	// stops when a step moves the line by less than edgeLineTol local SDs
+	// across the window (a thousandth of the smallest departure that
+	// counts, EdgeMinSD), or after edgeLineIterations steps.
+	edgeLineIterations = 50
+	// edgeCDFEnd: the reference's distribution function is read between its
+	// quantiles edgeCDFEnd and 1 - edgeCDFEnd (far beyond the chart
+	// centiles, whose lines are solved for).
+	edgeCDFEnd  = 1e-5
+	edgeLineTol = 1e-4
 	// EdgeMinRows: fewest rows of an end window (common practice: about
 	// ten observations per parameter of a straight line, times the tail
 	// fraction; 40 rows put 1.2 rows beyond the 3rd centile).
@@ -197,6 +218,16 @@ const (
 	EdgeGridPoints = 101
 )
 
+// edgeWindowShares are the end windows of the bend and hook checks, as
+// shares of the rows in age order (at least EdgeMinRows): the outer tenth
+// has the rows to see a gentle tilt, the outer fortieth sees a departure
+// confined to the first months of growth that bends fast (after birth),
+// which the wider windows dilute. Shares of rows, not of T(age), so that
+// every candidate age scale is checked on the same rows: a scale that
+// stretches the first months (age^(1/3)) would otherwise be checked on a
+// handful of newborns and pass with curves resting on them alone.
+var edgeWindowShares = []float64{1.0 / 10, 1.0 / 20, 1.0 / 40}
+
 // normIQR is the interquartile range of the standard normal, 2*Phi^-1(0.75).
 const normIQR = 1.3489795003921634
 
@@ -204,7 +235,7 @@ const normIQR = 1.3489795003921634
 type EdgeProblem struct {
 	Stratum string
 	Kind    string  // "tie", "bend" or "hook"
-	Tau     float64 // the centile concerned (the lower of a tied pair)
+	Tau     float64 // the centile concerned (the lower of a tied pair); 0 for the chart centiles together
 	Tau2    float64 // the upper centile of a tied pair; 0 otherwise
 	Age     float64 // where: the worst age of a tie, the end age otherwise
 	Detail  string
@@ -216,7 +247,10 @@ func (p EdgeProblem) String() string {
 		name = "(all)"
 	}
 	what := fmt.Sprintf("centile %.4g", 100*p.Tau)
-	if p.Kind == "tie" {
+	switch {
+	case p.Tau == 0:
+		what = "chart centiles together"
+	case p.Kind == "tie":
 		what = fmt.Sprintf("centiles %.4g and %.4g", 100*p.Tau, 100*p.Tau2)
 	}
 	return fmt.Sprintf("stratum %s, %s, age %.4g: %s: %s", name, what, p.Age, p.Kind, p.Detail)
@@ -235,18 +269,23 @@ func (p EdgeProblem) String() string {
 //     would give, (Phi^-1(tau') - Phi^-1(tau)) * sigma(age), with sigma the
 //     fitted interquartile range over 1.349 (the normal IQR in SD units).
 //     Distinct centiles that (nearly) coincide fail it.
-//   - bend: in each end window (the rows in the outer tenth of the range of
-//     T(age), at least EdgeMinRows rows), the curve's mean slope across the
-//     window, Q(a_inner) - Q(a_end) over a_inner - a_end, must agree with
-//     the slope of a straight-line quantile regression of the window's rows
-//     on age at the same tau within EdgeSlopeZ standard errors. The
-//     standard error is Koenker's (2005) asymptotic one for iid errors,
-//     sqrt(tau(1-tau)) / f(Q_tau) / (sqrt(n_w) sd(age in window)), with the
-//     density at the quantile f = phi(Phi^-1(tau)) / sigma.
-//   - hook: the curve's slope at the end age itself has the opposite sign to
-//     the window's straight-line slope while that slope differs from zero by
-//     more than HookZ standard errors: the curve turns back where the data
-//     keep their direction.
+//   - bend: in each end window (the outer tenth, twentieth and fortieth
+//     of the rows in age order, edgeWindowShares, at least EdgeMinRows
+//     rows), the reference must describe the window's data: the straight
+//     line a quantile regression of the window's rows on age gives at tau
+//     is compared with the line the same regression gives under the
+//     reference's own distribution at those ages (see checkEnd), by level
+//     at the window's mean age and by slope, each within EdgeSlopeZ
+//     standard errors. The standard errors are Koenker's (2005) asymptotic
+//     ones for iid errors: sqrt(tau(1-tau)) / f(Q_tau) / sqrt(n_w) for the
+//     level and that over sd(age in window) for the slope, with the
+//     density at the quantile f = phi(Phi^-1(tau)) / sigma. The chart
+//     centiles are also tested together (edgeJoint), which sees a fit
+//     that misses the data at an end with all its centiles at once.
+//   - hook: a bend where the curve also turns back against the data: its
+//     course across the window runs more than EdgeMinSD local SDs against
+//     the direction of the data line, whose slope differs from zero by more
+//     than HookZ standard errors.
 //
 // The checks are conservative on purpose: a problem fails a build unless
 // the user accepts it, so only gross departures count.
@@ -313,25 +352,57 @@ func checkStratumEdges(r *Reference, st *Stratum, g *rows) ([]EdgeProblem, error
 	if n < 2*EdgeMinRows {
 		return out, nil
 	}
-	tlo, thi := g.t[0], g.t[n-1]
-	span := (thi - tlo) / DefaultGuardWindows
-	lower := max(sort.SearchFloat64s(g.t, tlo+span), EdgeMinRows)
-	upper := min(sort.SearchFloat64s(g.t, thi-span), n-EdgeMinRows)
-	for _, w := range []struct {
-		from, to int
-		end      float64
-	}{{0, lower, st.AgeMin}, {upper, n, st.AgeMax}} {
-		p, err := checkEnd(r, st, g, w.from, w.to, w.end)
-		if err != nil {
-			return nil, err
+	seen := map[[2]float64]bool{} // (tau, end) already reported
+	for _, share := range edgeWindowShares {
+		m := max(int(share*float64(n)), EdgeMinRows)
+		lower, upper := m, n-m
+		for _, w := range []struct {
+			from, to int
+			end      float64
+		}{{0, lower, st.AgeMin}, {upper, n, st.AgeMax}} {
+			p, err := checkEnd(r, st, g, w.from, w.to, w.end)
+			if err != nil {
+				return nil, err
+			}
+			for _, q := range p {
+				if k := [2]float64{q.Tau, q.Age}; !seen[k] {
+					seen[k] = true
+					out = append(out, q)
+				}
+			}
 		}
-		out = append(out, p...)
 	}
 	return out, nil
 }
 
 // checkEnd runs the bend and hook checks of one end window, rows from..to-1
 // of g, whose end of the range is the age end.
+//
+// The bend check compares like with like. The straight-line quantile
+// regression of the window's rows estimates a population line: the line
+// that minimises the expected check loss over the window's ages. When the
+// true centile curve is not straight, as after birth, that line is not the
+// curve's chord nor its least-squares line: it weighs each age by the
+// density near the quantile, so where the curve runs far from the line its
+// ages count less (Angrist, Chernozhukov & Fernández-Val 2006). So the
+// fitted reference is reduced to the same thing: the line minimising the
+// expected check loss under the reference's own distribution at the
+// window's ages (binned at edgeLinePoints ages, weighted by their rows),
+// found by Newton's method on its estimating equations
+//
+//	sum_k m_k (F(age_k, a + b x_k) - tau) (1, x_k) = 0,
+//
+// with F the reference's distribution function (Phi of its z-score) and
+// x_k the age less the window's mean. A reference that describes the
+// window's data gives their line up to sampling error however fast growth
+// bends there; one that flicks, sags or tilts at the end does not. The two
+// lines are compared by their level at the window's mean age and by their
+// slope, each against the data line's standard error.
+//
+// References:
+//   - Angrist J, Chernozhukov V, Fernández-Val I (2006). Quantile
+//     regression under misspecification, with an application to the U.S.
+//     wage structure. Econometrica 74, 539–563.
 func checkEnd(r *Reference, st *Stratum, g *rows, from, to int, end float64) ([]EdgeProblem, error) {
 	age, y, w := g.age[from:to], g.y[from:to], g.w[from:to]
 	mean, sd := meanSD(age)
@@ -346,52 +417,256 @@ func checkEnd(r *Reference, st *Stratum, g *rows, from, to int, end float64) ([]
 	if end > mean {
 		inner = age[0]
 	}
-	q, err := r.Table(st.Name, []float64{mean, inner, end}, []float64{0.25, 0.75})
+	lo, hi := min(end, inner), max(end, inner)
+	win := &edgeWindow{r: r, stratum: st.Name, mean: mean,
+		grid: make([]float64, edgeLinePoints), mass: make([]float64, edgeLinePoints)}
+	width := (hi - lo) / edgeLinePoints
+	for k := range win.grid {
+		win.grid[k] = lo + width*(float64(k)+0.5)
+	}
+	for i, a := range age {
+		k := min(max(int((a-lo)/width), 0), edgeLinePoints-1)
+		win.mass[k] += w[i]
+	}
+	ext, err := r.Table(st.Name, win.grid, []float64{st.Taus[0], st.Taus[len(st.Taus)-1]})
+	if err != nil {
+		return nil, err
+	}
+	for _, row := range ext.Values {
+		win.low, win.high = append(win.low, row[0]), append(win.high, row[1])
+	}
+	q, err := r.Table(st.Name, []float64{mean}, []float64{0.25, 0.75})
 	if err != nil {
 		return nil, err
 	}
 	sigma := (q.Values[0][1] - q.Values[0][0]) / normIQR
+	win.step = edgeDensityStep * sigma
 	_, neff := (&rows{w: w}).weight()
 	var out []EdgeProblem
+	var joint edgeJoint
 	for _, tau := range st.Chart {
 		sol, err := solver.Solve(&solver.Problem{Y: y, X: x, W: w, Tau: tau}, nil)
 		if err != nil {
 			return nil, fmt.Errorf("edge slope at centile %g: %w", 100*tau, err)
 		}
-		dataSlope := sol.Coef[1]
-		zt := normZ(tau)
-		se := sigma * math.Sqrt(tau*(1-tau)) / normalPDF(zt) / (math.Sqrt(neff) * sd)
-		qi, err := r.Quantile(st.Name, inner, tau)
+		dataLevel, dataSlope := sol.Coef[0], sol.Coef[1]
+		// Koenker's (2005) iid standard errors of the data line's level at
+		// the window's mean age and of its slope (uncorrelated, the age
+		// being centred).
+		seLevel := sigma * math.Sqrt(tau*(1-tau)) / normalPDF(normZ(tau)) / math.Sqrt(neff)
+		seSlope := seLevel / sd
+		level, slope, err := win.line(tau, dataLevel, dataSlope, sigma)
+		if errors.Is(err, errNoDensity) {
+			continue // no line to compare: the tie check speaks
+		}
 		if err != nil {
-			return nil, err
+			return nil, fmt.Errorf("edge line at centile %g: %w", 100*tau, err)
 		}
-		qe, err := r.Quantile(st.Name, end, tau)
-		if err != nil {
-			return nil, err
+		joint.add(tau, (level-dataLevel)/seLevel, (slope-dataSlope)/seSlope, (level-dataLevel)/sigma, (slope-dataSlope)*(hi-lo)/sigma)
+		dSlope, dLevel := math.Abs(slope-dataSlope), math.Abs(level-dataLevel)
+		if !(dSlope > EdgeSlopeZ*seSlope && dSlope*(hi-lo) > EdgeMinSD*sigma) && !(dLevel > EdgeSlopeZ*seLevel && dLevel > EdgeMinSD*sigma) {
+			continue
 		}
-		curveSlope := (qi - qe) / (inner - end)
-		if d := math.Abs(curveSlope - dataSlope); d > EdgeSlopeZ*se && d*math.Abs(inner-end) > EdgeMinSD*sigma {
-			out = append(out, EdgeProblem{Stratum: st.Name, Kind: "bend", Tau: tau, Age: end,
-				Detail: fmt.Sprintf("the curve's mean slope %.3g per age unit over ages %.4g–%.4g against %.3g ± %.2g (1 SE) in the data",
-					curveSlope, min(inner, end), max(inner, end), dataSlope, se)})
-		}
-		v, err := r.Velocity(st.Name, end, tau)
-		if err != nil {
-			return nil, err
-		}
-		if v*dataSlope < 0 && math.Abs(dataSlope) > HookZ*se {
+		// The reference departs from the data here. It hooks when its
+		// curve also turns back against the data's clear direction.
+		if math.Abs(dataSlope) > HookZ*seSlope {
 			back, err := turnBack(r, st.Name, tau, end, inner, dataSlope)
 			if err != nil {
 				return nil, err
 			}
 			if back > EdgeMinSD*sigma {
+				v, err := r.Velocity(st.Name, end, tau)
+				if err != nil {
+					return nil, err
+				}
 				out = append(out, EdgeProblem{Stratum: st.Name, Kind: "hook", Tau: tau, Age: end,
-					Detail: fmt.Sprintf("the curve's slope at the end is %.3g per age unit, turning back by %.2g SD, while the data near the end rise at %.3g ± %.2g (1 SE)",
-						v, back/sigma, dataSlope, se)})
+					Detail: fmt.Sprintf("the curve's slope at the end is %.3g per age unit, turning back by %.2g SD, against the data line's slope %.3g ± %.2g (1 SE) over the end window",
+						v, back/sigma, dataSlope, seSlope)})
+				continue
 			}
 		}
+		out = append(out, EdgeProblem{Stratum: st.Name, Kind: "bend", Tau: tau, Age: end,
+			Detail: fmt.Sprintf("over ages %.4g–%.4g the reference's line has level %.4g (at age %.4g) and slope %.3g, the data's %.4g ± %.2g and %.3g ± %.2g (1 SE)",
+				lo, hi, level, mean, slope, dataLevel, seLevel, dataSlope, seSlope)})
+	}
+	if what, z, sds := joint.test(); what != "" {
+		out = append(out, EdgeProblem{Stratum: st.Name, Kind: "bend", Age: end,
+			Detail: fmt.Sprintf("over ages %.4g–%.4g the chart centiles' lines depart from the data's in %s together by %.1f SE (%.2g SD on average)",
+				lo, hi, what, z, sds)})
 	}
 	return out, nil
+}
+
+// edgeJoint tests the chart centiles of an end window together. When a
+// fit misses the data at an end, all its centiles tend to miss the same
+// way, each by less than EdgeSlopeZ standard errors but together by far
+// more. The mean of the centiles' standardised departures (reference line
+// less data line, over its standard error) is compared with its standard
+// error under the joint distribution of quantile-regression estimates:
+// with iid errors, those at tau_i and tau_j are asymptotically normal with
+// correlation (min(tau_i, tau_j) - tau_i tau_j) / sqrt(tau_i (1 - tau_i)
+// tau_j (1 - tau_j)) (Koenker 2005, section 4.2, after Koenker & Bassett
+// 1978). A level and a slope departure are tested so, each against
+// EdgeSlopeZ and with the EdgeMinSD floor on the mean departure.
+//
+// References:
+//   - Koenker R, Bassett G (1978). Regression quantiles. Econometrica 46,
+//     33–50.
+type edgeJoint struct {
+	taus             []float64
+	zLevel, zSlope   []float64 // standardised departures
+	sdLevel, sdSlope float64   // summed departures in local SDs (slope: across the window)
+}
+
+func (j *edgeJoint) add(tau, zl, zs, dl, ds float64) {
+	j.taus = append(j.taus, tau)
+	j.zLevel, j.zSlope = append(j.zLevel, zl), append(j.zSlope, zs)
+	j.sdLevel += dl
+	j.sdSlope += ds
+}
+
+// se is the standard error of the mean of the standardised departures of
+// the centiles added, under the joint null distribution of edgeJoint.
+func (j *edgeJoint) se() float64 {
+	v := 0.0
+	for _, a := range j.taus {
+		for _, b := range j.taus {
+			v += (min(a, b) - a*b) / math.Sqrt(a*(1-a)*b*(1-b))
+		}
+	}
+	return math.Sqrt(v) / float64(len(j.taus))
+}
+
+// test returns what departs ("level" or "slope"), by how many standard
+// errors, and by how many SDs on average; "" when neither does.
+func (j *edgeJoint) test() (string, float64, float64) {
+	k := len(j.taus)
+	if k < 2 {
+		return "", 0, 0
+	}
+	se := j.se()
+	mean := func(x []float64) float64 {
+		s := 0.0
+		for _, e := range x {
+			s += e
+		}
+		return s / float64(k)
+	}
+	for _, c := range []struct {
+		what string
+		z    []float64
+		sds  float64
+	}{{"level", j.zLevel, j.sdLevel / float64(k)}, {"slope", j.zSlope, j.sdSlope / float64(k)}} {
+		if z := mean(c.z) / se; math.Abs(z) > EdgeSlopeZ && math.Abs(c.sds) > EdgeMinSD {
+			return c.what, z, c.sds
+		}
+	}
+	return "", 0, 0
+}
+
+// errNoDensity: the reference's distribution has no density near a
+// centile at an end window's ages, so its line there is not defined.
+var errNoDensity = errors.New("no density near the centile")
+
+// edgeWindow is an end window's ages, binned, for the reference's own
+// quantile-regression line (see checkEnd).
+type edgeWindow struct {
+	r       *Reference
+	stratum string
+	mean    float64   // the window's mean age: x = age - mean
+	grid    []float64 // bin centres
+	mass    []float64 // summed row weights per bin
+	low     []float64 // the quantiles of the first and last grid taus per bin
+	high    []float64
+	step    float64 // half-width of the difference that gives densities
+}
+
+// cdf is the reference's distribution function at the age of bin k and
+// value v; values beyond the bin's quantiles at the first and last grid
+// taus are held there (outside the chart centiles whose lines are solved
+// for; a Box–Cox tail need not score every value beyond them).
+func (e *edgeWindow) cdf(k int, v float64) (float64, error) {
+	v = min(max(v, e.low[k]), e.high[k])
+	sc, err := e.r.Score(e.stratum, e.grid[k], v)
+	if err != nil {
+		return 0, err
+	}
+	return normP(sc.Z), nil
+}
+
+// line solves the estimating equations of checkEnd's doc for the line
+// a + b x, starting from (a, b), by Newton's method with step halving on
+// the equations' norm; sigma scales the convergence test.
+func (e *edgeWindow) line(tau, a, b, sigma float64) (float64, float64, error) {
+	eqs := func(a, b float64, jac bool) (g [2]float64, h [3]float64, err error) {
+		for k, age := range e.grid {
+			m := e.mass[k]
+			if m == 0 {
+				continue
+			}
+			xk := age - e.mean
+			v := a + b*xk
+			f, err := e.cdf(k, v)
+			if err != nil {
+				return g, h, err
+			}
+			g[0] += m * (f - tau)
+			g[1] += m * (f - tau) * xk
+			if jac {
+				up, err := e.cdf(k, v+e.step)
+				if err != nil {
+					return g, h, err
+				}
+				down, err := e.cdf(k, v-e.step)
+				if err != nil {
+					return g, h, err
+				}
+				dens := m * (up - down) / (2 * e.step)
+				h[0] += dens
+				h[1] += dens * xk
+				h[2] += dens * xk * xk
+			}
+		}
+		return g, h, nil
+	}
+	norm := func(g [2]float64) float64 { return math.Hypot(g[0], g[1]/max(e.spread(), 1e-300)) }
+	g, h, err := eqs(a, b, true)
+	if err != nil {
+		return 0, 0, err
+	}
+	for range edgeLineIterations {
+		det := h[0]*h[2] - h[1]*h[1]
+		if !(det > 0) { // no density there: tied centiles, which the tie check reports
+			return 0, 0, errNoDensity
+		}
+		da := (h[2]*g[0] - h[1]*g[1]) / det
+		db := (h[0]*g[1] - h[1]*g[0]) / det
+		cur := norm(g)
+		var gn [2]float64
+		for range 30 {
+			gn, _, err = eqs(a-da, b-db, false)
+			if err != nil {
+				return 0, 0, err
+			}
+			if norm(gn) < cur {
+				break
+			}
+			da, db = da/2, db/2
+		}
+		a, b = a-da, b-db
+		if math.Abs(da)+math.Abs(db)*e.spread() <= edgeLineTol*sigma {
+			return a, b, nil
+		}
+		if g, h, err = eqs(a, b, true); err != nil {
+			return 0, 0, err
+		}
+	}
+	return a, b, nil
+}
+
+// spread is the half-range of the window's bin centres about the mean.
+func (e *edgeWindow) spread() float64 {
+	return max(math.Abs(e.grid[0]-e.mean), math.Abs(e.grid[len(e.grid)-1]-e.mean))
 }
 
 // turnBack returns how far the curve of tau runs against the data's

@@ -124,13 +124,15 @@ func build(plan *intake.Plan, dir string, prog progress) (*built, error) {
 			switch {
 			case c.Err != "":
 				parts = append(parts, fmt.Sprintf("%s (unusable)", c.Scale))
+			case c.Thin != "":
+				parts = append(parts, fmt.Sprintf("%s %.5g (passed over: %s)", c.Scale, c.Score, c.Thin))
 			case c.Problems > 0:
 				parts = append(parts, fmt.Sprintf("%s %.5g (%d edge problems)", c.Scale, c.Score, c.Problems))
 			default:
 				parts = append(parts, fmt.Sprintf("%s %.5g", c.Scale, c.Score))
 			}
 		}
-		b.notes = append(b.notes, "age scale chosen by the smoothness criterion summed over strata (lower is better; the best without edge problems wins): "+strings.Join(parts, ", "))
+		b.notes = append(b.notes, "age scale chosen by the smoothness criterion summed over strata (lower is better; the best without edge problems, whose curves at both ends rest on enough rows, wins): "+strings.Join(parts, ", "))
 	}
 	for _, p := range res.Problems {
 		b.notes = append(b.notes, "accepted edge problem: "+p.String())

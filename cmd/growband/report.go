@@ -73,7 +73,9 @@ weights lambda at the best count; {{.Rule}}. The chosen value is marked.</p>
 {{if .Scales}}<h3>Age scales tried</h3>
 <p class="meta">Each candidate scale scored by the smoothness criterion summed over strata (lower is
 better); the best whose curves pass the edge checks (no ties, hooks or bends the data do not show)
-is chosen.</p>
+is chosen. A scale whose curves at an end of the age range would rest on under a quarter of the rows'
+worth that the best-supported scale's rest on there is passed over: its centiles at that end would
+carry over twice the sampling error.</p>
 <table>
 <tr><th class="l">age scale</th><th>criterion</th><th>edge problems</th><th class="l"></th></tr>
 {{range .Scales}}<tr><td class="l">{{.Scale}}</td><td>{{.Score}}</td><td>{{.Problems}}</td><td class="l">{{if .Chosen}}chosen scale{{end}}</td></tr>
@@ -246,6 +248,8 @@ func (b *built) report(w io.Writer, charts, worms [][]byte) error {
 			switch {
 			case c.Err != "":
 				row.Score, row.Problems = "unusable: "+c.Err, ""
+			case c.Thin != "":
+				row.Problems = "passed over: " + c.Thin
 			case c.Problems < 0:
 				row.Problems = "not fitted (a better candidate passed)"
 			}
