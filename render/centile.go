@@ -134,7 +134,7 @@ func CentileChart(c *Centiles, opt ...Option) (*Figure, error) {
 
 	p := newPlot(base)
 	p.X.Label.Text = withUnit("Age", c.AgeUnit)
-	p.X.Tick.Marker = ageTicks{unit: c.AgeUnit}
+	p.X.Tick.Marker = ageTicks{unit: c.AgeUnit, max: s.ageMax}
 	p.Y.Label.Text = withUnit(capitalize(measureName(c.Measure)), c.Unit)
 
 	// Nested bands, outermost first, so inner ones paint over. Dashed

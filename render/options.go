@@ -27,6 +27,7 @@ type settings struct {
 	binWidth float64
 	columns  int
 	noGrid   bool
+	ageMax   int // most labelled age intervals; 0 for the default
 }
 
 // WithHue sets the hue (degrees, any real number; taken modulo 360) of the
@@ -49,6 +50,15 @@ func WithFontSize(size vg.Length) Option {
 			s.fontSize = size
 		}
 	}
+}
+
+// WithAgeIntervals caps the labelled age ticks of a chart drawn small (on a
+// phone screen, say) at n intervals: the age steps of the unit are tried
+// from the finest, and the first that divides the range into at most n
+// parts is used (0–60 months at n = 5 ticks every 12). n <= 0 keeps the
+// default of 11.
+func WithAgeIntervals(n int) Option {
+	return func(s *settings) { s.ageMax = n }
 }
 
 // WithTitle replaces the title a constructor would compose.

@@ -90,6 +90,7 @@ const ageMaxIntervals = 11
 // unknown unit, or a range too long for the steps, falls back to niceTicks.
 type ageTicks struct {
 	unit string
+	max  int // most major intervals; 0 means ageMaxIntervals
 }
 
 // ageUnitKey maps "months", "month", "Months" to the key of ageSteps.
@@ -105,9 +106,13 @@ func (t ageTicks) Ticks(lo, hi float64) []plot.Tick {
 	if !(hi > lo) || math.IsInf(lo, 0) || math.IsInf(hi, 0) {
 		return nil
 	}
+	most := t.max
+	if most <= 0 {
+		most = ageMaxIntervals
+	}
 	for _, st := range ageSteps[ageUnitKey(t.unit)] {
 		step, minor := st[0], st[1]
-		if (hi-lo)/step > ageMaxIntervals {
+		if (hi-lo)/step > float64(most) {
 			continue
 		}
 		var out []plot.Tick

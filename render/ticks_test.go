@@ -39,6 +39,13 @@ func TestAgeTicks(t *testing.T) {
 			t.Errorf("%s %g–%g: %s, want %s", c.unit, c.lo, c.hi, got, c.want)
 		}
 	}
+	// A chart drawn small asks for fewer labels (WithAgeIntervals).
+	if got, want := majorLabels(ageTicks{unit: "months", max: 5}, 0, 60), "[0 12 24 36 48 60]"; got != want {
+		t.Errorf("months 0–60 at most 5 intervals: %s, want %s", got, want)
+	}
+	if got, want := majorLabels(ageTicks{unit: "years", max: 5}, 0, 19), "[0 5 10 15]"; got != want {
+		t.Errorf("years 0–19 at most 5 intervals: %s, want %s", got, want)
+	}
 	// An unknown unit falls back to tidy decimal steps.
 	if got := (ageTicks{unit: "fortnights"}).Ticks(0, 10); len(got) == 0 {
 		t.Error("no ticks for an unknown unit")

@@ -26,6 +26,7 @@ const maxChartLabels = 8
 type chartSize struct {
 	width, height, font vg.Length
 	noCaution           bool
+	ageIntervals        int // most labelled age intervals; 0 for render's default
 }
 
 // Chart sizes. The API's chart has render's defaults. The page's charts are
@@ -38,8 +39,14 @@ type chartSize struct {
 var (
 	apiChart   = chartSize{}
 	pageChart  = chartSize{width: 420, height: 300, font: 13, noCaution: true}
-	phoneChart = chartSize{width: 235, height: 225, font: 13, noCaution: true}
+	phoneChart = chartSize{width: 235, height: 225, font: 13, noCaution: true, ageIntervals: phoneAgeIntervals}
 )
+
+// phoneAgeIntervals: the phone chart labels at most 5 age intervals (0–60
+// months every 12, 0–19 years every 5): at 235 drawn units wide, the
+// default 11 labels of 0–60 months sit about 19 units apart, and a
+// two-digit label at font 13 is about 14 wide, leaving almost no gap.
+const phoneAgeIntervals = 5
 
 // point is one measurement of a child drawn on the chart.
 type point struct {
@@ -72,6 +79,9 @@ func chartSVG(r *curve.Reference, st *curve.Stratum, pts []point, size chartSize
 	var opts []render.Option
 	if size.font > 0 {
 		opts = append(opts, render.WithFontSize(size.font))
+	}
+	if size.ageIntervals > 0 {
+		opts = append(opts, render.WithAgeIntervals(size.ageIntervals))
 	}
 	fig, err := render.CentileChart(c, opts...)
 	if err != nil {
