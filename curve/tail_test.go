@@ -228,11 +228,12 @@ func TestTailNotBoxCox(t *testing.T) {
 				}
 				// A guard against gross regressions at the edges, far looser
 				// than the 0.2: measured 0.24–0.40 at the first and
-				// last ages with 15,000 a sex, 0.5–1.6 with the 4,000 of
-				// -short.
+				// last ages with 15,000 a sex, 0.39–1.11 with the 4,000 of
+				// -short (0.5–1.6 before age scales that leave the curves
+				// at an end to few rows were passed over).
 				limit := 0.5
 				if testing.Short() {
-					limit = 2.5
+					limit = 1.5
 				}
 				if worst > limit {
 					t.Errorf("%s %s: a chart centile is %.3f z off, beyond the guard %g", c.name, name, worst, limit)
