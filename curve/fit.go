@@ -8,6 +8,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"iter"
 	"math"
 	"runtime"
 	"slices"
@@ -674,21 +675,22 @@ func groupRows(d *Data, c *config) ([]*rows, error) {
 }
 
 // inputHash implements the canonical form documented at Fit.
-func inputHash(d *Data) string { return inputHashRows(d, nil) }
+func inputHash(d *Data) string {
+	return inputHashRows(d, func(yield func(int) bool) {
+		for i := range d.Age {
+			if !yield(i) {
+				return
+			}
+		}
+	})
+}
 
-// inputHashRows is inputHash of the rows idx of d (ascending), or of all
-// rows when idx is nil.
-func inputHashRows(d *Data, idx []int) string {
+// inputHashRows is inputHash of the rows of d that rows yields, in
+// ascending order.
+func inputHashRows(d *Data, rows iter.Seq[int]) string {
 	h := sha256.New()
 	var buf []byte
-	for k := range d.Age {
-		i := k
-		if idx != nil {
-			if k >= len(idx) {
-				break
-			}
-			i = idx[k]
-		}
+	for i := range rows {
 		buf = buf[:0]
 		w := 1.0
 		if d.Weight != nil {

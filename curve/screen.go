@@ -75,7 +75,7 @@ func robustZRows(groups []*rows, n int, c *config) ([]float64, error) {
 	cs.prog = &progress{}
 	z := make([]float64, n)
 	pl := newPool(cs.workers)
-	err := parallel(len(groups), func(g int) error {
+	err := eachStratum(groups, func(g int) error {
 		r := groups[g]
 		ch, err := smoothFor(pl, r, &cs)
 		if err != nil {
