@@ -183,27 +183,63 @@ func ChooseAgeScale(d *Data, s *Settings) (*Reference, []ScaleChoice, []EdgeProb
 	if d == nil || len(d.Age) == 0 {
 		return nil, nil, nil, fmt.Errorf("%w: no rows", ErrData)
 	}
-	return chooseScale(d, s)
+	is := *s
+	is.AgeScale = AgeScale{}
+	c, err := is.resolve()
+	if err != nil {
+		return nil, nil, nil, err
+	}
+	groups, hash, err := prepare(d, c)
+	if err != nil {
+		return nil, nil, nil, err
+	}
+	return chooseScale(d, groups, hash, s)
 }
 
-func chooseScale(d *Data, fs *Settings) (*Reference, []ScaleChoice, []EdgeProblem, error) {
-	cands := ageScaleCandidates(d.Age, fs.AgeUnit)
-	sample := d
-	subsampled := len(d.Age) > scaleSampleRows
-	if subsampled {
-		idx := make([]int, len(d.Age))
-		for i := range idx {
-			idx[i] = i
-		}
-		slices.SortStableFunc(idx, func(a, b int) int { return cmp.Compare(d.Age[a], d.Age[b]) })
-		step := (len(idx) + scaleSampleRows - 1) / scaleSampleRows
-		var pick []int
-		for k := 0; k < len(idx); k += step {
-			pick = append(pick, idx[k])
-		}
-		slices.Sort(pick)
-		sample = d.rows(pick)
+// chooseScale is ChooseAgeScale on the rows of d grouped and sorted by age
+// (prepare; Build's row store), whose input hash is hash. Each candidate
+// fitted recomputes the groups' T(age) (rescale); no rows are copied.
+func chooseScale(d *Data, groups []*rows, hash string, fs *Settings) (*Reference, []ScaleChoice, []EdgeProblem, error) {
+	youngest, total := math.Inf(1), 0
+	for _, r := range groups {
+		youngest = min(youngest, r.age[0])
+		total += len(r.age)
 	}
+	cands := ageScaleCandidates([]float64{youngest}, fs.AgeUnit)
+	subsampled := total > scaleSampleRows
+	var pick []int
+	if subsampled {
+		// Every step-th row in age order over all strata (ties in input
+		// order): a merge of the groups' age orders.
+		step := (total + scaleSampleRows - 1) / scaleSampleRows
+		pos := make([]int, len(groups))
+		for k := 0; k < total; k++ {
+			g := -1
+			for h, r := range groups {
+				if pos[h] == len(r.age) {
+					continue
+				}
+				if g < 0 {
+					g = h
+					continue
+				}
+				a, b := r.age[pos[h]], groups[g].age[pos[g]]
+				if a < b || (a == b && r.src[pos[h]] < groups[g].src[pos[g]]) {
+					g = h
+				}
+			}
+			if k%step == 0 {
+				pick = append(pick, groups[g].src[pos[g]])
+			}
+			pos[g]++
+		}
+	} else {
+		for _, r := range groups {
+			pick = append(pick, r.src...)
+		}
+	}
+	slices.Sort(pick)
+	sample := d.rows(pick)
 	prog := &progress{w: fs.Progress}
 	choices := make([]ScaleChoice, len(cands))
 	chosen := make([]map[string]*choice, len(cands))
@@ -251,11 +287,14 @@ func chooseScale(d *Data, fs *Settings) (*Reference, []ScaleChoice, []EdgeProble
 		if subsampled {
 			pre = nil
 		}
-		ref, err := fitResolved(d, &s, c, pre)
+		if err := rescale(groups, c); err != nil {
+			return nil, nil, nil, err
+		}
+		ref, err := fitGroups(groups, hash, &s, c, pre)
 		if err != nil {
 			return nil, nil, nil, err
 		}
-		problems, err := CheckEdges(ref, d)
+		problems, err := checkEdgesRows(ref, groups)
 		if err != nil {
 			return nil, nil, nil, err
 		}
@@ -277,7 +316,7 @@ func chooseScale(d *Data, fs *Settings) (*Reference, []ScaleChoice, []EdgeProble
 // returns the choices, the end support of each stratum's curves at its
 // choice as shares of its rows (endSupport), and the summed criterion.
 func scoreScale(d *Data, c *config) (map[string]*choice, map[string][2]float64, float64, error) {
-	groups, _, err := prepare(d, c)
+	groups, err := groupRows(d, c)
 	if err != nil {
 		return nil, nil, 0, err
 	}

@@ -46,15 +46,20 @@
 // smoothness choice, the sample-size guard and the bootstrap bands are
 // documented on NonCrossConstrain, Smoothness, Flag and Band.
 //
-// Scale. Fit holds each row as its age, value and weight (24 bytes; T(age)
-// another 8 unless the age scale is the identity), the B-spline design row
-// (40 bytes for cubics), and, for each tau grid being solved, the solver's
-// copy of the responses with the two costs of each row and its scale and
-// sign for the reduction (about 34 bytes; two grids run at once with two
-// workers). Measured peak memory with the defaults, two strata of 5,000,000
-// rows each: 1.74 GB resident for 10,000,000 rows, about 175 bytes per input
+// Scale. Build holds each row it uses once, grouped by stratum and sorted
+// by age: its input row number, age, value and weight (32 bytes; T(age)
+// another 8 unless the age scale is the identity). The stratum being fitted
+// adds its B-spline design row (40 bytes for cubics; penalty rows are kept
+// past them, so penalized solver tables share the design) and, for each of
+// the two halves of its tau grid solved at once, the solver's copy of the
+// responses with the two costs of each row and its scale and sign for the
+// reduction (about 29 bytes). Above 2,000,000 rows the strata are fitted
+// one after another and the garbage collector's target is lowered while
+// Build runs (see Build). Measured peak memory through Build with the
+// command's defaults (/usr/bin/time -v, a shared 2-core machine): 1.70 GB
+// resident for 10,000,000 rows in two strata, about 170 bytes per input
 // row, of which the caller's Data holds 32 (ages, values, stratum labels);
-// 470 MB for 2,000,000 rows (/usr/bin/time -v). Smoothness is chosen on a
+// 0.47 to 0.51 GB for 1,000,000 rows. Smoothness is chosen on a
 // sample of SelectRows rows of each larger stratum, so beyond that size the
 // time grows with the final grid: one pass over the rows per tau, plus an
 // interior point on a band of about 2*sqrt(p*n) rows.

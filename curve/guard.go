@@ -301,11 +301,16 @@ func (p EdgeProblem) String() string {
 // References:
 //   - Koenker R (2005). Quantile Regression. Cambridge University Press.
 func CheckEdges(r *Reference, d *Data) ([]EdgeProblem, error) {
-	c := &config{scale: r.AgeScale}
-	groups, _, err := prepare(d, c)
+	groups, err := groupRows(d, &config{scale: r.AgeScale})
 	if err != nil {
 		return nil, err
 	}
+	return checkEdgesRows(r, groups)
+}
+
+// checkEdgesRows is CheckEdges on rows already grouped and sorted (prepare)
+// on the reference's age scale.
+func checkEdgesRows(r *Reference, groups []*rows) ([]EdgeProblem, error) {
 	var out []EdgeProblem
 	for _, g := range groups {
 		st, err := r.Stratum(g.name)

@@ -85,6 +85,16 @@ func fitGridWith(pl *pool, x, pen *solver.Design, y, w []float64, lambda float64
 		pr.Lambda, pr.Penalty = lambda, pen
 	}
 	constrain := mode == NonCrossConstrain
+	if median == nil && x.Rows() > solver.PreprocessRows {
+		// Solved once here rather than cold by both halves at once: a
+		// cold start on millions of rows holds large reduced problems,
+		// and each half then starts from the median at once.
+		sols, err := pl.grid(pr, []float64{0.5}, nil)
+		if err != nil {
+			return nil, err
+		}
+		median = sols[0]
+	}
 	coef := make([][]float64, len(taus))
 	halves := [2][]float64{taus[:mid+1], taus[mid:]}
 	err := parallel(2, func(h int) error {

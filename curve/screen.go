@@ -58,18 +58,24 @@ func RobustZ(d *Data, s *Settings) ([]float64, error) {
 }
 
 func robustZ(d *Data, c *config) ([]float64, error) {
+	groups, err := groupRows(d, c)
+	if err != nil {
+		return nil, err
+	}
+	return robustZRows(groups, len(d.Age), c)
+}
+
+// robustZRows is robustZ on rows already grouped (prepare) from data of n
+// rows; z is indexed by the rows' src.
+func robustZRows(groups []*rows, n int, c *config) ([]float64, error) {
 	cs := *c
 	cs.chart = []float64{0.1, 0.25, 0.75, 0.9}
 	cs.medianOnly = false
 	cs.boot = 0
 	cs.prog = &progress{}
-	groups, _, err := prepare(d, &cs)
-	if err != nil {
-		return nil, err
-	}
-	z := make([]float64, len(d.Age))
+	z := make([]float64, n)
 	pl := newPool(cs.workers)
-	err = parallel(len(groups), func(g int) error {
+	err := eachStratum(groups, func(g int) error {
 		r := groups[g]
 		ch, err := smoothFor(pl, r, &cs)
 		if err != nil {

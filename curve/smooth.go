@@ -116,7 +116,14 @@ func newModel(r *rows, interior []float64, degree, order int) (*model, error) {
 	}
 	p := basis.Len()
 	wd := degree + 1
-	x := &solver.Design{Cols: p, Width: wd, First: make([]int, n), Val: make([]float64, n*wd)}
+	// The penalty rows, padded to the design's width, are kept just past
+	// the data rows, where the solver reads them instead of copying every
+	// data row into each penalized table (solver.Problem.Penalty).
+	rowsPen := 0
+	if order < p && order+1 <= wd {
+		rowsPen = p - order
+	}
+	x := &solver.Design{Cols: p, Width: wd, First: make([]int, n, n+rowsPen), Val: make([]float64, n*wd, (n+rowsPen)*wd)}
 	for i, t := range r.t {
 		f, err := basis.Eval(x.Val[i*wd:(i+1)*wd], t)
 		if err != nil {
@@ -132,6 +139,14 @@ func newModel(r *rows, interior []float64, degree, order int) (*model, error) {
 		for i := range rowsPen {
 			m.pen.First[i] = i
 			m.pen.Val = append(m.pen.Val, dc...)
+		}
+		if cap(x.First) == n+rowsPen {
+			first, val := x.First[:n+rowsPen], x.Val[:(n+rowsPen)*wd]
+			for i := range rowsPen {
+				at := min(i, p-wd)
+				first[n+i] = at
+				copy(val[(n+i)*wd+i-at:], dc)
+			}
 		}
 	}
 	return m, nil

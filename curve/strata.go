@@ -52,7 +52,7 @@ func parallel(n int, f func(i int) error) error {
 func fitStrata(groups []*rows, c *config) ([]Stratum, error) {
 	pl := newPool(c.workers)
 	out := make([]Stratum, len(groups))
-	err := parallel(len(groups), func(i int) error {
+	err := eachStratum(groups, func(i int) error {
 		st, err := fitStratum(pl, groups[i], c)
 		if err != nil {
 			return fmt.Errorf("stratum %q: %w", groups[i].name, err)

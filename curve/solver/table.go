@@ -74,8 +74,16 @@ func newTable(pr *Problem) *table {
 		copy(t.y[nx:], pr.H)
 		return t
 	}
-	t.x = &Design{Cols: q, Width: width, First: make([]int, nx), Val: make([]float64, nx*width)}
+	shared := sharedPenalty(pr.X, pr.Penalty, width)
+	if shared != nil {
+		t.x = shared
+	} else {
+		t.x = &Design{Cols: q, Width: width, First: make([]int, nx), Val: make([]float64, nx*width)}
+	}
 	put := func(i, first int, val []float64) {
+		if shared != nil {
+			return
+		}
 		f := min(first, q-width)
 		t.x.First[i] = f
 		copy(t.x.Val[i*width+first-f:], val)
@@ -99,6 +107,39 @@ func newTable(pr *Problem) *table {
 	}
 	copy(t.y[nx:], pr.H)
 	return t
+}
+
+// sharedPenalty returns the design x extended over the penalty rows when
+// x's arrays already hold them just past its own rows, padded to width as
+// newTable would place them; nil otherwise. A caller that keeps its design
+// so (package curve does) spares each table a copy of every data row,
+// which at millions of rows is most of a table's memory. The rows are
+// compared entry by entry, so a table built on them is the table newTable
+// would copy; the table never writes them.
+func sharedPenalty(x, pen *Design, width int) *Design {
+	n, nPen, q := len(x.First), len(pen.First), x.Cols
+	nx := n + nPen
+	if x.Width != width || cap(x.First) < nx || cap(x.Val) < nx*width {
+		return nil
+	}
+	first, val := x.First[:nx], x.Val[:nx*width]
+	for k := range nPen {
+		f, v := pen.Row(k)
+		at := min(f, q-width)
+		if first[n+k] != at {
+			return nil
+		}
+		for j, got := range val[(n+k)*width : (n+k+1)*width] {
+			want := 0.0
+			if jj := j - (f - at); jj >= 0 && jj < len(v) {
+				want = v[jj]
+			}
+			if got != want {
+				return nil
+			}
+		}
+	}
+	return &Design{Cols: q, Width: width, First: first, Val: val}
 }
 
 // Layout of vectors over the rows, in float64s (see rowVectors).
