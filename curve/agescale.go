@@ -272,6 +272,11 @@ func chooseScale(d *Data, groups []*rows, hash string, fs *Settings) (*Reference
 		return nil, choices, nil, fmt.Errorf("no usable age scale: %w", firstErr)
 	}
 	order = passOverThin(order, cands, support, choices)
+	for _, c := range choices {
+		if c.Thin != "" {
+			prog.printf("age scale %s passed over: %s", c.Scale, c.Thin)
+		}
+	}
 	slices.SortStableFunc(order, func(a, b int) int { return cmp.Compare(choices[a].Score, choices[b].Score) })
 	var bestRef *Reference
 	var bestProblems []EdgeProblem
