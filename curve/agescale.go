@@ -3,6 +3,7 @@ package curve
 import (
 	"cmp"
 	"fmt"
+	"maps"
 	"math"
 	"slices"
 )
@@ -377,15 +378,13 @@ func passOverThin(order []int, cands []AgeScale, support []map[string][2]float64
 	var kept []int
 	for _, i := range order {
 		thin := ""
-		for name, s := range support[i] {
+		// Strata in name order, so the reason given is the same every run.
+		for _, name := range slices.Sorted(maps.Keys(support[i])) {
+			s := support[i][name]
 			for e, end := range []string{"youngest", "oldest"} {
 				if thin == "" && s[e]*EndSupportRatio < best[name][e] {
-					label := name
-					if label == "" {
-						label = "(all)"
-					}
 					thin = fmt.Sprintf("stratum %s: the curves at the %s age rest on %.2g%% of the rows' worth, against %.2g%% under %s",
-						label, end, 100*s[e], 100*best[name][e], cands[bestBy[name][e]])
+						stratumLabel(name), end, 100*s[e], 100*best[name][e], cands[bestBy[name][e]])
 				}
 			}
 		}

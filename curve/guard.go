@@ -247,11 +247,16 @@ type EdgeProblem struct {
 	Detail  string
 }
 
-func (p EdgeProblem) String() string {
-	name := p.Stratum
+// stratumLabel names a stratum in messages: "(all)" for the unnamed one.
+func stratumLabel(name string) string {
 	if name == "" {
-		name = "(all)"
+		return "(all)"
 	}
+	return name
+}
+
+func (p EdgeProblem) String() string {
+	name := stratumLabel(p.Stratum)
 	what := fmt.Sprintf("centile %.4g", 100*p.Tau)
 	switch {
 	case p.Tau == 0:

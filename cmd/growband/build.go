@@ -647,3 +647,20 @@ func implausible(r *curve.Reference, d *curve.Data, lim float64) ([]int, []strin
 	}
 	return idx, detail
 }
+
+// writeCSV writes a table of the build's output directory and lists the
+// file among those written.
+func (b *built) writeCSV(name string, head []string, rows [][]string) error {
+	var buf bytes.Buffer
+	w := csv.NewWriter(&buf)
+	w.Write(head)
+	w.WriteAll(rows)
+	if err := w.Error(); err != nil {
+		return err
+	}
+	if err := os.WriteFile(filepath.Join(b.dir, name), buf.Bytes(), 0o644); err != nil {
+		return err
+	}
+	b.files = append(b.files, name)
+	return nil
+}

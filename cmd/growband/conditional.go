@@ -1,11 +1,8 @@
 package main
 
 import (
-	"bytes"
-	"encoding/csv"
 	"fmt"
 	"math"
-	"os"
 	"path/filepath"
 	"slices"
 	"strconv"
@@ -101,17 +98,9 @@ func (b *built) writeConditionalTable() error {
 	for _, p := range cents {
 		head = append(head, "next_c"+f(p))
 	}
-	var buf bytes.Buffer
-	w := csv.NewWriter(&buf)
-	w.Write(head)
-	w.WriteAll(rows)
-	if err := w.Error(); err != nil {
+	if err := b.writeCSV("conditional.csv", head, rows); err != nil {
 		return err
 	}
-	if err := os.WriteFile(filepath.Join(b.dir, "conditional.csv"), buf.Bytes(), 0o644); err != nil {
-		return err
-	}
-	b.files = append(b.files, "conditional.csv")
 	return b.writeConditionalCharts()
 }
 

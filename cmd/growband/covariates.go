@@ -1,11 +1,7 @@
 package main
 
 import (
-	"bytes"
-	"encoding/csv"
 	"fmt"
-	"os"
-	"path/filepath"
 	"slices"
 	"strconv"
 	"strings"
@@ -173,25 +169,11 @@ func (b *built) fitCovariates(prog progress) error {
 		}
 		out = append(out, lines...)
 	}
-	write := func(name string, head []string, rows [][]string) error {
-		var buf bytes.Buffer
-		w := csv.NewWriter(&buf)
-		w.Write(head)
-		w.WriteAll(rows)
-		if err := w.Error(); err != nil {
-			return err
-		}
-		if err := os.WriteFile(filepath.Join(b.dir, name), buf.Bytes(), 0o644); err != nil {
-			return err
-		}
-		b.files = append(b.files, name)
-		return nil
-	}
-	if err := write("covariates.csv", []string{"stratum", "centile", "term", "estimate", "se", "lo95", "hi95", "p", "n", "method"}, out); err != nil {
+	if err := b.writeCSV("covariates.csv", []string{"stratum", "centile", "term", "estimate", "se", "lo95", "hi95", "p", "n", "method"}, out); err != nil {
 		return err
 	}
 	if len(unused) > 0 {
 		b.notes = append(b.notes, fmt.Sprintf("covariates: %d rows without every covariate left out of their fit (covariates-unused.csv)", len(unused)))
 	}
-	return write("covariates-unused.csv", []string{"line", "reason"}, unused)
+	return b.writeCSV("covariates-unused.csv", []string{"line", "reason"}, unused)
 }
