@@ -1,12 +1,16 @@
 package curve
 
 import (
+	"cmp"
 	"fmt"
 	"math"
+	"runtime"
 	"slices"
 	"sort"
 
 	"gonum.org/v1/gonum/stat/distuv"
+
+	"growband/spline"
 )
 
 // Diagnostics is the check of a reference against measurement data: how the
@@ -116,6 +120,9 @@ const (
 	// D'Agostino and Anscombe–Glynn transforms are valid (as stated by
 	// D'Agostino, Belanger & D'Agostino 1990, from memory).
 	skewMinN, kurtMinN = 8, 20
+	// checkBlockRows: rows are scored in parallel blocks of at least this
+	// many rows (fewer rows are scored in one; our choice).
+	checkBlockRows = 10000
 )
 
 // Check scores the rows of d against r and returns the diagnostics.
@@ -168,14 +175,18 @@ func Check(r *Reference, d *Data, bands []float64) (*Diagnostics, error) {
 		}
 	}
 
-	type row struct {
-		age, z float64
-		below  []bool // per chart centile
+	// Each row's stratum, or its reason to be skipped; the look-up is done
+	// once per stratum name, so the scoring below reads r only.
+	type found struct {
+		si  int // index in r.Strata
+		b   *spline.Basis
+		err error
 	}
-	perStratum := make(map[*Stratum][]row)
+	byName := map[string]found{}
+	si := make([]int32, n) // the row's stratum; -1 when skipped
 	out := &Diagnostics{}
-	var ws scoreSpace
 	for i := range n {
+		si[i] = -1
 		name := ""
 		if d.Stratum != nil {
 			name = d.Stratum[i]
@@ -184,46 +195,95 @@ func Check(r *Reference, d *Data, bands []float64) (*Diagnostics, error) {
 			out.Skipped = append(out.Skipped, Skipped{i, fmt.Sprintf("weight %g is not positive", d.Weight[i])})
 			continue
 		}
-		st, b, err := r.lookup(name)
+		f, ok := byName[name]
+		if !ok {
+			st, b, err := r.lookup(name)
+			f = found{b: b, err: err}
+			for k := range r.Strata {
+				if &r.Strata[k] == st {
+					f.si = k
+				}
+			}
+			byName[name] = f
+		}
+		err := f.err
 		if err == nil && bands != nil && !(d.Age[i] >= bands[0] && d.Age[i] <= bands[len(bands)-1]) {
 			err = fmt.Errorf("age %g outside the bands [%g, %g]", d.Age[i], bands[0], bands[len(bands)-1])
-		}
-		var s Score
-		if err == nil {
-			s, err = ws.score(r, st, b, d.Age[i], d.Value[i])
 		}
 		if err != nil {
 			out.Skipped = append(out.Skipped, Skipped{i, err.Error()})
 			continue
 		}
-		below := make([]bool, len(st.Chart))
-		for j, c := range st.Chart {
-			below[j] = d.Value[i] < ws.q[gridIndex(st.Taus, c)]
+		si[i] = int32(f.si)
+	}
+	bases := make([]*spline.Basis, len(r.Strata))
+	for _, f := range byName {
+		if f.err == nil {
+			bases[f.si] = f.b
 		}
-		perStratum[st] = append(perStratum[st], row{d.Age[i], s.Z, below})
 	}
 
-	for si := range r.Strata {
-		st := &r.Strata[si]
-		rows := perStratum[st]
+	// Score the rows in parallel blocks: z, and per chart centile whether
+	// the value lies below it (stride: the most chart centiles of a
+	// stratum). A row that cannot be scored is skipped with the reason.
+	stride := 0
+	for k := range r.Strata {
+		stride = max(stride, len(r.Strata[k].Chart))
+	}
+	z := make([]float64, n)
+	below := make([]bool, n*stride)
+	blocks := min(runtime.GOMAXPROCS(0), max(n/checkBlockRows, 1))
+	failed := make([][]Skipped, blocks)
+	_ = parallel(blocks, func(k int) error {
+		var ws scoreSpace
+		for i := k * n / blocks; i < (k+1)*n/blocks; i++ {
+			if si[i] < 0 {
+				continue
+			}
+			st := &r.Strata[si[i]]
+			s, err := ws.score(r, st, bases[si[i]], d.Age[i], d.Value[i])
+			if err != nil {
+				si[i] = -1
+				failed[k] = append(failed[k], Skipped{i, err.Error()})
+				continue
+			}
+			z[i] = s.Z
+			for j, c := range st.Chart {
+				below[i*stride+j] = d.Value[i] < ws.q[gridIndex(st.Taus, c)]
+			}
+		}
+		return nil
+	})
+	for _, f := range failed {
+		out.Skipped = append(out.Skipped, f...)
+	}
+	slices.SortStableFunc(out.Skipped, func(a, b Skipped) int { return cmp.Compare(a.Row, b.Row) })
+	perStratum := make([][]int, len(r.Strata))
+	for i, k := range si {
+		if k >= 0 {
+			perStratum[k] = append(perStratum[k], i)
+		}
+	}
+
+	for sx := range r.Strata {
+		st := &r.Strata[sx]
+		rows := perStratum[sx]
 		if len(rows) == 0 {
 			continue
 		}
-		slices.SortStableFunc(rows, func(a, b row) int {
-			switch {
-			case a.age < b.age:
-				return -1
-			case a.age > b.age:
-				return 1
+		// By age, ties in row order.
+		slices.SortFunc(rows, func(a, b int) int {
+			if c := cmp.Compare(d.Age[a], d.Age[b]); c != 0 {
+				return c
 			}
-			return 0
+			return cmp.Compare(a, b)
 		})
 		var cuts []int // group g is rows[cuts[g]:cuts[g+1]]
 		var edges [][2]float64
 		if bands != nil {
 			for b := 0; b+1 < len(bands); b++ {
-				lo := sort.Search(len(rows), func(i int) bool { return rows[i].age >= bands[b] })
-				hi := sort.Search(len(rows), func(i int) bool { return rows[i].age >= bands[b+1] })
+				lo := sort.Search(len(rows), func(i int) bool { return d.Age[rows[i]] >= bands[b] })
+				hi := sort.Search(len(rows), func(i int) bool { return d.Age[rows[i]] >= bands[b+1] })
 				if b+2 == len(bands) {
 					hi = len(rows)
 				}
@@ -237,32 +297,32 @@ func Check(r *Reference, d *Data, bands []float64) (*Diagnostics, error) {
 			for k := range g {
 				lo, hi := k*len(rows)/g, (k+1)*len(rows)/g
 				cuts = append(cuts, lo, hi)
-				edges = append(edges, [2]float64{rows[lo].age, rows[hi-1].age})
+				edges = append(edges, [2]float64{d.Age[rows[lo]], d.Age[rows[hi-1]]})
 			}
 		}
 		var groups []Group
 		for k := 0; k < len(cuts); k += 2 {
 			gr := rows[cuts[k]:cuts[k+1]]
-			z := make([]float64, len(gr))
-			for i, rw := range gr {
-				z[i] = rw.z
+			gz := make([]float64, len(gr))
+			for i, row := range gr {
+				gz[i] = z[row]
 			}
 			g := Group{Stratum: st.Name, AgeLo: edges[k/2][0], AgeHi: edges[k/2][1], N: len(gr)}
-			g.Mean, g.SD, g.Skew, g.Kurt = moments(z)
+			g.Mean, g.SD, g.Skew, g.Kurt = moments(gz)
 			for j, c := range st.Chart {
-				below := 0
-				for _, rw := range gr {
-					if rw.below[j] {
-						below++
+				count := 0
+				for _, row := range gr {
+					if below[row*stride+j] {
+						count++
 					}
 				}
-				lo, hi := wilson(below, len(gr), wilsonLevel)
+				lo, hi := wilson(count, len(gr), wilsonLevel)
 				g.Shares = append(g.Shares, Share{
-					Tau: c, Below: below, Observed: float64(below) / float64(len(gr)),
+					Tau: c, Below: count, Observed: float64(count) / float64(len(gr)),
 					Lo: lo, Hi: hi, Off: c < lo || c > hi,
 				})
 			}
-			g.Worm = worm(z)
+			g.Worm = worm(gz)
 			groups = append(groups, g)
 		}
 		out.Groups = append(out.Groups, groups...)

@@ -387,3 +387,67 @@ func TestWormEnvelopeCoverage(t *testing.T) {
 		t.Errorf("%.3f of points outside the envelope, want about 0.05", frac)
 	}
 }
+
+// TestCheckBlocks repeats the rows of TestCheckCountsAndSkips until they
+// are scored in several parallel blocks: the skipped rows come out in row
+// order with the same reasons, and every stratum's rows below each chart
+// centile add up to the count of rows under the fitted centile at their age
+// (mustQ, one row at a time).
+func TestCheckBlocks(t *testing.T) {
+	r := twoStrata()
+	base := &Data{
+		Age:     []float64{1, 2, 30, 3, 4, 5, 6, 0.2, 7},
+		Value:   []float64{9, 10, 11, math.NaN(), 12, 13, 14, 9, 15},
+		Stratum: []string{"F", "F", "F", "F", "X", "M", "M", "M", "M"},
+		Weight:  []float64{1, 1, 1, 1, 1, 0, 1, 1, 2},
+	}
+	skip := map[int]string{2: "age", 3: "finite", 4: "unknown stratum", 5: "weight", 7: "age"}
+	const copies = 3 * checkBlockRows / 9
+	d := &Data{}
+	for k := range copies {
+		for i := range base.Age {
+			// Usable ages move a little from copy to copy, so that the groups
+			// by age mix the copies.
+			shift := float64(k%7) / 10
+			if _, skipped := skip[i]; skipped {
+				shift = 0
+			}
+			d.Age = append(d.Age, base.Age[i]+shift)
+			d.Value = append(d.Value, base.Value[i])
+			d.Stratum = append(d.Stratum, base.Stratum[i])
+			d.Weight = append(d.Weight, base.Weight[i])
+		}
+	}
+	dg, err := Check(r, d, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(dg.Skipped) != copies*len(skip) {
+		t.Fatalf("%d rows skipped, want %d", len(dg.Skipped), copies*len(skip))
+	}
+	for i, s := range dg.Skipped {
+		if !strings.Contains(s.Reason, skip[s.Row%9]) || (i > 0 && s.Row <= dg.Skipped[i-1].Row) {
+			t.Fatalf("skipped %+v, want reason with %q, rows in order", s, skip[s.Row%9])
+		}
+	}
+	for _, name := range []string{"F", "M"} {
+		for _, tau := range r.Strata[0].Chart {
+			want, got := 0, 0
+			for i := range d.Age {
+				if _, skipped := skip[i%9]; !skipped && d.Stratum[i] == name && d.Value[i] < mustQ(t, r, name, d.Age[i], tau) {
+					want++
+				}
+			}
+			for _, g := range dg.Groups {
+				for _, s := range g.Shares {
+					if g.Stratum == name && s.Tau == tau {
+						got += s.Below
+					}
+				}
+			}
+			if got != want {
+				t.Errorf("%s tau %g: %d rows below, want %d", name, tau, got, want)
+			}
+		}
+	}
+}

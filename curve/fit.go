@@ -488,6 +488,11 @@ func fitGroups(groups []*rows, hash string, s *Settings, c *config, chosen map[s
 			ref.Created = s.Created.UTC().Truncate(time.Second)
 		}
 	}
+	// Validated with its bases cached, as Load returns one: every look-up
+	// would otherwise check the whole stratum again.
+	if err := ref.ready(); err != nil {
+		return nil, err
+	}
 	return ref, nil
 }
 

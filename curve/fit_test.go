@@ -456,3 +456,18 @@ func testModel(t *testing.T, d *Data, c *config) (*rows, *model) {
 	}
 	return groups[0], m
 }
+
+// TestFitReady: a fitted reference comes back validated with each stratum's
+// basis cached, as Load returns one, so that scoring it does not validate
+// the whole stratum again at every look-up.
+func TestFitReady(t *testing.T) {
+	ref, err := Fit(lmsTruth{}.draw(2000, 5), &Settings{Knots: 2, Penalty: PenaltyNone})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, st := range ref.Strata {
+		if st.basis == nil {
+			t.Errorf("stratum %q: no cached basis", st.Name)
+		}
+	}
+}
