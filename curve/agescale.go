@@ -327,6 +327,7 @@ func scoreScale(d *Data, c *config) (map[string]*choice, map[string][2]float64, 
 		return nil, nil, 0, err
 	}
 	pl := newPool(c.workers)
+	c = c.sharedBy(len(groups))
 	chs := make([]*choice, len(groups))
 	err = parallel(len(groups), func(g int) error {
 		ch, err := chooseSmoothness(pl, groups[g], c)

@@ -245,15 +245,23 @@ const strataAtOnceRows = 2000000
 // at 25 and 1.58 GB at 10, where collections took 17 s of CPU time.
 const largeGCPercent = 25
 
-// eachStratum runs f for every group: concurrently (parallel) unless the
-// groups together exceed strataAtOnceRows rows, then in order, stopping at
-// the first error.
-func eachStratum(groups []*rows, f func(g int) error) error {
+// together is the number of groups eachStratum runs at once.
+func together(groups []*rows) int {
 	total := 0
 	for _, r := range groups {
 		total += len(r.y)
 	}
 	if total <= strataAtOnceRows {
+		return len(groups)
+	}
+	return 1
+}
+
+// eachStratum runs f for every group: concurrently (parallel) unless the
+// groups together exceed strataAtOnceRows rows, then in order, stopping at
+// the first error.
+func eachStratum(groups []*rows, f func(g int) error) error {
+	if together(groups) > 1 {
 		return parallel(len(groups), f)
 	}
 	for g := range groups {

@@ -224,6 +224,7 @@ type config struct {
 	bandPoints int
 	seed       uint64
 	workers    int
+	batch      int // candidates a smoothness search evaluates at once; 0: workers
 	prog       *progress
 	chosen     map[string]*choice // smoothness chosen beforehand, by stratum
 	selectRows int                // SelectRows; tests lower it

@@ -10,6 +10,14 @@ import (
 // quartiles and the 10th and 90th centiles.
 var screenTaus = []float64{0.1, 0.25, 0.5, 0.75, 0.9}
 
+// screenSelectRows caps the sample on which the screening fit chooses its
+// smoothness (see SelectRows): the screen needs curves that follow the
+// data's centre closely enough to place |z| = 5, not the criterion's choice
+// at the stratum's full size. Measured on 1,000,000 simulated Box–Cox
+// normal rows in two strata: the screen took 1.3 s instead of 3.2 s of a
+// 12.8 s build, and excluded 17 rows where it excluded 16.
+const screenSelectRows = 50000
+
 // screenZ are Phi^-1 of screenTaus (exact to the digits given, from the
 // normal quantile function).
 var screenZ = []float64{-1.2815515655446004, -0.6744897501960817, 0, 0.6744897501960817, 1.2815515655446004}
@@ -73,6 +81,8 @@ func robustZRows(groups []*rows, n int, c *config) ([]float64, error) {
 	cs.medianOnly = false
 	cs.boot = 0
 	cs.prog = &progress{}
+	cs.selectRows = min(cs.selectRows, screenSelectRows)
+	cs.batch = cs.sharedBy(together(groups)).batch
 	z := make([]float64, n)
 	pl := newPool(cs.workers)
 	err := eachStratum(groups, func(g int) error {

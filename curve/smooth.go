@@ -249,7 +249,7 @@ func chooseSmoothness(pl *pool, r *rows, c *config) (*choice, error) {
 	ev := &evaluator{pl: pl, r: r, c: c, criterion: criterion}
 
 	// Stage 1: knots, from the fewest.
-	cands := search(len(sets), c.workers, func(i int) candidate {
+	cands := search(len(sets), c.searchBatch(), func(i int) candidate {
 		m, err := newModel(r, sets[i], c.degree, c.order)
 		if err != nil {
 			return candidate{err: err}
@@ -276,7 +276,7 @@ func chooseSmoothness(pl *pool, r *rows, c *config) (*choice, error) {
 				return nil, m0.err
 			}
 		}
-		lc := search(len(lambdaSteps)+1, c.workers, func(i int) candidate {
+		lc := search(len(lambdaSteps)+1, c.searchBatch(), func(i int) candidate {
 			if i == 0 {
 				return m0
 			}

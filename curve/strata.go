@@ -47,10 +47,32 @@ func parallel(n int, f func(i int) error) error {
 	return nil
 }
 
+// sharedBy returns a copy of c for one of k strata searched at once: each
+// stratum's smoothness search evaluates its share of the workers'
+// candidates at a time (at least one). The search's choice does not depend
+// on its batch (see search); a larger batch only evaluates, in parallel,
+// candidates past the point where the search stops, which the other strata
+// would have put to use.
+func (c *config) sharedBy(k int) *config {
+	cs := *c
+	cs.batch = max(1, c.workers/max(k, 1))
+	return &cs
+}
+
+// searchBatch is the number of candidates a smoothness search evaluates at
+// once.
+func (c *config) searchBatch() int {
+	if c.batch > 0 {
+		return c.batch
+	}
+	return c.workers
+}
+
 // fitStrata fits every group concurrently; strata share one pool of
 // c.workers solver slots.
 func fitStrata(groups []*rows, c *config) ([]Stratum, error) {
 	pl := newPool(c.workers)
+	c = c.sharedBy(together(groups))
 	out := make([]Stratum, len(groups))
 	err := eachStratum(groups, func(i int) error {
 		st, err := fitStratum(pl, groups[i], c)

@@ -106,6 +106,11 @@ var typical = map[string]struct{ age, value []float64 }{
 const (
 	unitDoubt = 1.6
 	unitFit   = 1.25
+	// unitSampleRows: the median ratio is taken over at most this many
+	// evenly spaced rows, which place it to well under 1% (its standard
+	// error is about 1.25 times the rows' spread of log ratios, some 15%,
+	// over the square root of the rows: 0.06% here).
+	unitSampleRows = 100000
 )
 
 // ageUnitMisread returns a message when the ages look like another unit.
@@ -123,9 +128,11 @@ func ageUnitMisread(t *Table, m Measure) string {
 	if err != nil {
 		return ""
 	}
+	// The median is read off at most unitSampleRows evenly spaced rows.
+	step := max(len(t.Rows)/unitSampleRows, 1)
 	off := func(u ageunit.Unit) float64 {
-		logs := make([]float64, 0, len(t.Rows))
-		for i := range t.Rows {
+		logs := make([]float64, 0, len(t.Rows)/step+1)
+		for i := 0; i < len(t.Rows); i += step {
 			r := &t.Rows[i]
 			months := u.Convert(r.Age, ageunit.Months)
 			if r.Value <= 0 || months < 0 {

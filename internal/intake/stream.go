@@ -4,6 +4,7 @@ import (
 	"bufio"
 	"bytes"
 	"fmt"
+	"hash/maphash"
 	"io"
 	"os"
 	"strings"
@@ -230,7 +231,8 @@ func newReader(src source, p *prepared, name string, header []string, hdrLine in
 	}
 	r.rd = rowReader{p: p, cols: cols, header: header, comma: r.comma, src: src}
 	if !p.KeepDuplicates {
-		r.rd.seen = map[string]int{}
+		r.rd.seen = map[dupKey]int{}
+		r.rd.seeds = [2]maphash.Seed{maphash.MakeSeed(), maphash.MakeSeed()}
 	}
 	return r, nil
 }
