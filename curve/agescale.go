@@ -6,6 +6,8 @@ import (
 	"maps"
 	"math"
 	"slices"
+
+	"growband/spline"
 )
 
 // Age scale kinds. The zero AgeScale (Kind "") is the identity.
@@ -117,7 +119,8 @@ type ScaleChoice struct {
 	Scale AgeScale
 	// Score is the smoothness criterion at the candidate's chosen
 	// smoothness, summed over strata (lower is better); NaN when the
-	// candidate could not be fitted.
+	// candidate could not be fitted or was passed over before scoring
+	// (Thin).
 	Score float64
 	// Problems counts the edge-check problems of the candidate's fit; -1
 	// when it was not fitted (a better-scored candidate passed).
@@ -164,12 +167,15 @@ func ageScaleCandidates(ages []float64, ageUnit string) []AgeScale {
 // strata. The check loss is measured on the same values whatever the scale,
 // so the criterion compares scales as it compares knot counts: a scale that
 // lets fewer coefficients follow early infancy and the later years alike
-// scores better. A candidate whose curves at an end of the range rest on
-// fewer than 1/EndSupportRatio of the rows' worth that the best-supported
-// candidate's rest on there (endSupport, computed from its knots before
-// any fit) is passed over, with the reason in ScaleChoice.Thin: the
-// criterion, summed over all rows, hardly sees a scale that leaves the
-// curves at birth to a few dozen newborns. Candidates are then fitted in order of their score and the
+// scores better. The identity is scored first. Then every candidate's end
+// support is computed with the knot counts the identity chose (endSupport:
+// from the knots alone, before any fit, so all scales are compared at the
+// same flexibility), and a candidate whose curves at an end of the range
+// rest there on fewer than 1/EndSupportRatio of the rows' worth of the
+// best-supported candidate is passed over unscored, with the reason in
+// ScaleChoice.Thin: the criterion, summed over all rows, hardly sees a
+// scale that leaves the curves at birth to a few dozen newborns. The other
+// candidates are scored. Candidates are then fitted in order of their score and the
 // first whose fit passes the edge checks (CheckEdges) is chosen; a scale
 // whose curves tie, hook or bend where the data do not is passed over even
 // when its criterion is lower. When none passes, the best-scored one is
@@ -244,39 +250,76 @@ func chooseScale(d *Data, groups []*rows, hash string, fs *Settings) (*Reference
 	prog := &progress{w: fs.Progress}
 	choices := make([]ScaleChoice, len(cands))
 	chosen := make([]map[string]*choice, len(cands))
-	support := make([]map[string][2]float64, len(cands))
+	configs := make([]*config, len(cands))
 	var firstErr error
+	fail := func(i int, err error) {
+		choices[i].Err = err.Error()
+		if firstErr == nil {
+			firstErr = err
+		}
+	}
 	for i, sc := range cands {
 		choices[i] = ScaleChoice{Scale: sc, Score: math.NaN(), Problems: -1}
 		s := *fs
 		s.AgeScale, s.Progress = sc, nil
 		c, err := s.resolve()
-		if err == nil {
-			chosen[i], support[i], choices[i].Score, err = scoreScale(sample, c)
-		}
 		if err != nil {
-			choices[i].Err = err.Error()
-			if firstErr == nil {
-				firstErr = err
-			}
+			fail(i, err)
 			continue
 		}
-		prog.printf("age scale %s: criterion %.6g", sc, choices[i].Score)
+		configs[i] = c
+	}
+	score := func(i int) {
+		if choices[i].Err != "" || choices[i].Thin != "" {
+			return
+		}
+		var err error
+		if chosen[i], choices[i].Score, err = scoreScale(sample, configs[i]); err != nil {
+			fail(i, err)
+			return
+		}
+		prog.printf("age scale %s: criterion %.6g", cands[i], choices[i].Score)
+	}
+	// The identity (cands[0]) first: its knot counts are the common ground
+	// on which every candidate's end support is measured, and a candidate
+	// left thin there is passed over without being scored.
+	score(0)
+	if choices[0].Err == "" {
+		knots := map[string]int{}
+		for name, ch := range chosen[0] {
+			knots[name] = len(ch.model.interior)
+		}
+		support := make([]map[string][2]float64, len(cands))
+		var usable []int
+		for i := range cands {
+			if choices[i].Err != "" {
+				continue
+			}
+			var err error
+			if support[i], err = supportAt(sample, configs[i], knots); err != nil {
+				fail(i, err)
+				continue
+			}
+			usable = append(usable, i)
+		}
+		passOverThin(usable, cands, support, choices)
+		for _, c := range choices {
+			if c.Thin != "" {
+				prog.printf("age scale %s passed over: %s", c.Scale, c.Thin)
+			}
+		}
+	}
+	for i := 1; i < len(cands); i++ {
+		score(i)
 	}
 	order := make([]int, 0, len(cands))
 	for i := range cands {
-		if choices[i].Err == "" {
+		if choices[i].Err == "" && choices[i].Thin == "" {
 			order = append(order, i)
 		}
 	}
 	if len(order) == 0 {
 		return nil, choices, nil, fmt.Errorf("no usable age scale: %w", firstErr)
-	}
-	order = passOverThin(order, cands, support, choices)
-	for _, c := range choices {
-		if c.Thin != "" {
-			prog.printf("age scale %s passed over: %s", c.Scale, c.Thin)
-		}
 	}
 	slices.SortStableFunc(order, func(a, b int) int { return cmp.Compare(choices[a].Score, choices[b].Score) })
 	var bestRef *Reference
@@ -319,12 +362,11 @@ func chooseScale(d *Data, groups []*rows, hash string, fs *Settings) (*Reference
 }
 
 // scoreScale chooses the smoothness of every stratum of d under c and
-// returns the choices, the end support of each stratum's curves at its
-// choice as shares of its rows (endSupport), and the summed criterion.
-func scoreScale(d *Data, c *config) (map[string]*choice, map[string][2]float64, float64, error) {
+// returns the choices and the summed criterion.
+func scoreScale(d *Data, c *config) (map[string]*choice, float64, error) {
 	groups, err := groupRows(d, c)
 	if err != nil {
-		return nil, nil, 0, err
+		return nil, 0, err
 	}
 	pl := newPool(c.workers)
 	c = c.sharedBy(len(groups))
@@ -338,22 +380,45 @@ func scoreScale(d *Data, c *config) (map[string]*choice, map[string][2]float64, 
 		return nil
 	})
 	if err != nil {
-		return nil, nil, 0, err
+		return nil, 0, err
 	}
 	out := map[string]*choice{}
-	support := map[string][2]float64{}
 	total := 0.0
 	for g, ch := range chs {
 		out[groups[g].name] = ch
 		total += ch.smooth.Score
-		lo, hi, err := endSupport(ch.model, groups[g])
-		if err != nil {
-			return nil, nil, 0, fmt.Errorf("stratum %q: %w", groups[g].name, err)
-		}
-		n := float64(len(groups[g].t))
-		support[groups[g].name] = [2]float64{lo / n, hi / n}
 	}
-	return out, support, total, nil
+	return out, total, nil
+}
+
+// supportAt returns the end support (endSupport) of every stratum of d
+// under the age scale of c, with knots[stratum] interior knots at the
+// quantiles of its T(age), as shares of its rows.
+func supportAt(d *Data, c *config, knots map[string]int) (map[string][2]float64, error) {
+	groups, err := groupRows(d, c)
+	if err != nil {
+		return nil, err
+	}
+	support := map[string][2]float64{}
+	for _, r := range groups {
+		var interior []float64
+		if k := knots[r.name]; k > 0 {
+			if interior, err = spline.QuantileKnots(r.t, k); err != nil {
+				return nil, fmt.Errorf("%w: stratum %q: %w", ErrData, r.name, err)
+			}
+		}
+		m, err := newModel(r, interior, c.degree, c.order)
+		if err != nil {
+			return nil, fmt.Errorf("stratum %q: %w", r.name, err)
+		}
+		lo, hi, err := endSupport(m, r)
+		if err != nil {
+			return nil, fmt.Errorf("stratum %q: %w", r.name, err)
+		}
+		n := float64(len(r.t))
+		support[r.name] = [2]float64{lo / n, hi / n}
+	}
+	return support, nil
 }
 
 // passOverThin removes from order (candidate indices) those whose curves

@@ -249,7 +249,7 @@ func (b *built) report(w io.Writer, charts, worms [][]byte) error {
 			case c.Err != "":
 				row.Score, row.Problems = "unusable: "+c.Err, ""
 			case c.Thin != "":
-				row.Problems = "passed over: " + c.Thin
+				row.Score, row.Problems = "not scored", "passed over: "+c.Thin
 			case c.Problems < 0:
 				row.Problems = "not fitted (a better candidate passed)"
 			}
