@@ -56,10 +56,10 @@
 // reduction (about 29 bytes). Above 2,000,000 rows the strata are fitted
 // one after another and the garbage collector's target is lowered while
 // Build runs (see Build). Measured peak memory through Build with the
-// command's defaults (/usr/bin/time -v, a shared 2-core machine): 1.70 GB
-// resident for 10,000,000 rows in two strata, about 170 bytes per input
-// row, of which the caller's Data holds 32 (ages, values, stratum labels);
-// 0.47 to 0.51 GB for 1,000,000 rows. Smoothness is chosen on a
+// command's defaults (/usr/bin/time -v, a shared 2-core machine): 1.58 to
+// 1.70 GB resident for 10,000,000 rows in two strata, about 170 bytes per
+// input row, of which the caller's Data holds 32 (ages, values, stratum
+// labels); 0.45 to 0.51 GB for 1,000,000 rows. Smoothness is chosen on a
 // sample of SelectRows rows of each larger stratum, so beyond that size the
 // time grows with the final grid: one pass over the rows per tau, plus an
 // interior point on a band of about 2*sqrt(p*n) rows.
