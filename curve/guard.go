@@ -315,23 +315,29 @@ func CheckEdges(r *Reference, d *Data) ([]EdgeProblem, error) {
 
 // checkEdgesRows is CheckEdges on rows already grouped and sorted (prepare)
 // on the reference's age scale.
+// The strata are checked concurrently (r is only read; Build's and Load's
+// references have their bases cached) and their problems listed in the
+// groups' order.
 func checkEdgesRows(r *Reference, groups []*rows) ([]EdgeProblem, error) {
-	var out []EdgeProblem
-	for _, g := range groups {
+	found := make([][]EdgeProblem, len(groups))
+	err := parallel(len(groups), func(k int) error {
+		g := groups[k]
 		st, err := r.Stratum(g.name)
 		if err != nil {
-			return nil, fmt.Errorf("%w: %w", ErrData, err)
+			return fmt.Errorf("%w: %w", ErrData, err)
 		}
 		if st.LMS != nil {
-			continue
+			return nil
 		}
-		p, err := checkStratumEdges(r, st, g)
-		if err != nil {
-			return nil, fmt.Errorf("stratum %q: %w", g.name, err)
+		if found[k], err = checkStratumEdges(r, st, g); err != nil {
+			return fmt.Errorf("stratum %q: %w", g.name, err)
 		}
-		out = append(out, p...)
+		return nil
+	})
+	if err != nil {
+		return nil, err
 	}
-	return out, nil
+	return slices.Concat(found...), nil
 }
 
 func checkStratumEdges(r *Reference, st *Stratum, g *rows) ([]EdgeProblem, error) {
