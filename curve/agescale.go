@@ -172,8 +172,8 @@ func ageScaleCandidates(ages []float64, ageUnit string) []AgeScale {
 // from the knots alone, before any fit, so all scales are compared at the
 // same flexibility), and a candidate whose curves at an end of the range
 // rest there on fewer than 1/EndSupportRatio of the rows' worth of the
-// best-supported candidate is passed over unscored, with the reason in
-// ScaleChoice.Thin: the criterion, summed over all rows, hardly sees a
+// best-supported candidate is passed over (unscored, unless it is the
+// identity), with the reason in ScaleChoice.Thin: the criterion, summed over all rows, hardly sees a
 // scale that leaves the curves at birth to a few dozen newborns. The other
 // candidates are scored. Candidates are then fitted in order of their score and the
 // first whose fit passes the edge checks (CheckEdges) is chosen; a scale

@@ -124,8 +124,10 @@ func build(plan *intake.Plan, dir string, prog progress) (*built, error) {
 			switch {
 			case c.Err != "":
 				parts = append(parts, fmt.Sprintf("%s (unusable)", c.Scale))
-			case c.Thin != "":
+			case c.Thin != "" && math.IsNaN(c.Score):
 				parts = append(parts, fmt.Sprintf("%s (passed over unscored: %s)", c.Scale, c.Thin))
+			case c.Thin != "":
+				parts = append(parts, fmt.Sprintf("%s %.5g (passed over: %s)", c.Scale, c.Score, c.Thin))
 			case c.Problems > 0:
 				parts = append(parts, fmt.Sprintf("%s %.5g (%d edge problems)", c.Scale, c.Score, c.Problems))
 			default:

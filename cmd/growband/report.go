@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"html/template"
 	"io"
+	"math"
 	"regexp"
 	"slices"
 	"strings"
@@ -249,7 +250,10 @@ func (b *built) report(w io.Writer, charts, worms [][]byte) error {
 			case c.Err != "":
 				row.Score, row.Problems = "unusable: "+c.Err, ""
 			case c.Thin != "":
-				row.Score, row.Problems = "not scored", "passed over: "+c.Thin
+				row.Problems = "passed over: " + c.Thin
+				if math.IsNaN(c.Score) {
+					row.Score = "not scored"
+				}
 			case c.Problems < 0:
 				row.Problems = "not fitted (a better candidate passed)"
 			}
