@@ -158,28 +158,28 @@ func ageScaleCandidates(ages []float64, ageUnit string) []AgeScale {
 	return append(out, AgeScale{Kind: ScaleLog, Shift: month}, AgeScale{Kind: ScaleLog, Shift: year})
 }
 
-// ChooseAgeScale is the automatic age scale of Build. The candidates are
-// the identity, age^(1/2) and age^(1/3) (when no age is negative), and
-// log(age + c) with c one month and one year in Settings.AgeUnit (plus the
-// youngest age's distance below zero). Each is scored by the smoothness criterion of the settings
-// (Settings.Criterion, the same criterion that chooses knots and penalty,
-// see Settings), each stratum at its own chosen smoothness, summed over
-// strata. The check loss is measured on the same values whatever the scale,
-// so the criterion compares scales as it compares knot counts: a scale that
-// lets fewer coefficients follow early infancy and the later years alike
-// scores better. The identity is scored first. Then every candidate's end
-// support is computed with the knot counts the identity chose (endSupport:
-// from the knots alone, before any fit, so all scales are compared at the
-// same flexibility), and a candidate whose curves at an end of the range
-// rest there on fewer than 1/EndSupportRatio of the rows' worth of the
-// best-supported candidate is passed over (unscored, unless it is the
-// identity), with the reason in ScaleChoice.Thin: the criterion, summed over all rows, hardly sees a
-// scale that leaves the curves at birth to a few dozen newborns. The other
-// candidates are scored. Candidates are then fitted in order of their score and the
-// first whose fit passes the edge checks (CheckEdges) is chosen; a scale
-// whose curves tie, hook or bend where the data do not is passed over even
-// when its criterion is lower. When none passes, the best-scored one is
-// returned with its problems.
+// ChooseAgeScale is the automatic age scale of Build. The candidates are the
+// identity, age^(1/2) and age^(1/3) (when no age is negative), and log(age +
+// c) with c one month and one year in Settings.AgeUnit (plus the youngest
+// age's distance below zero). Each is scored by the smoothness criterion of
+// the settings (Settings.Criterion, the same criterion that chooses knots
+// and penalty, see Settings), each stratum at its own chosen smoothness,
+// summed over strata. The check loss is measured on the same values whatever
+// the scale, so the criterion compares scales as it compares knot counts: a
+// scale that lets fewer coefficients follow early infancy and the later
+// years alike scores better. The identity is scored first. Then every
+// candidate's end support is computed with the knot counts the identity
+// chose (endSupport: from the knots alone, before any fit, so all scales are
+// compared at the same flexibility), and a candidate whose curves at an end
+// of the range rest there on fewer than 1/EndSupportRatio of the rows' worth
+// of the best-supported candidate is passed over (unscored, unless it is the
+// identity), with the reason in ScaleChoice.Thin: the criterion, summed over
+// all rows, hardly sees a scale that leaves the curves at birth to a few
+// dozen newborns. The other candidates are scored. Candidates are then
+// fitted in order of their score and the first whose fit passes the edge
+// checks (CheckEdges) is chosen; a scale whose curves tie, hook or bend
+// where the data do not is passed over even when its criterion is lower.
+// When none passes, the best-scored one is returned with its problems.
 //
 // ChooseAgeScale returns the reference fitted on d with the chosen scale,
 // the candidates and the chosen fit's edge problems. s.AgeScale is ignored.
