@@ -6,6 +6,8 @@ import (
 	"math/rand/v2"
 	"slices"
 
+	"gonum.org/v1/gonum/mat"
+
 	"growband/curve/solver"
 	"growband/spline"
 )
@@ -186,7 +188,11 @@ type candidate struct {
 	se     float64 // standard error of score; 0 for SIC
 	edf    int     // rows the median fit interpolates; 0 when not computed
 	median *solver.Solution
-	err    error
+	// taus and sols are the fits the score was computed from (SIC only),
+	// which start the next candidate's (see startsFrom).
+	taus []float64
+	sols []*solver.Solution
+	err  error
 }
 
 // knotSets returns the candidate interior knot sets on the T scale: one
@@ -247,14 +253,35 @@ func chooseSmoothness(pl *pool, r *rows, c *config) (*choice, error) {
 		criterion = CriterionSIC // only reported, as information
 	}
 	ev := &evaluator{pl: pl, r: r, c: c, criterion: criterion}
+	// Under the Schwarz criterion each candidate's fits start from those of
+	// the candidate evaluated just before it, so candidates are evaluated
+	// one at a time (their centiles in parallel); the starts, and so the
+	// answers, do not depend on the number of workers.
+	// Cross-validation evaluates candidates in parallel batches, unstarted.
+	started := criterion != CriterionCV
+	batch := c.searchBatch()
+	if started {
+		batch = 1
+	}
+	var prev *candidate
+	next := func(m *model, lambda float64) candidate {
+		if !started {
+			return ev.eval(m, lambda, nil)
+		}
+		cd := ev.eval(m, lambda, prev)
+		if cd.err == nil {
+			prev = &cd
+		}
+		return cd
+	}
 
 	// Stage 1: knots, from the fewest.
-	cands := search(len(sets), c.searchBatch(), func(i int) candidate {
+	cands := search(len(sets), batch, func(i int) candidate {
 		m, err := newModel(r, sets[i], c.degree, c.order)
 		if err != nil {
 			return candidate{err: err}
 		}
-		return ev.eval(m, lambda0)
+		return next(m, lambda0)
 	})
 	best, err := pick(cands)
 	if err != nil {
@@ -268,19 +295,21 @@ func chooseSmoothness(pl *pool, r *rows, c *config) (*choice, error) {
 		total, _ := r.weight()
 		unit := total / float64(best.model.p)
 		m0 := best
+		prev = &best
 		if ev.c.medianOnly {
 			// Rescore the knot stage's winner on the wider tau set.
 			ev.chart = true
-			m0 = ev.eval(m0.model, lambda0)
+			m0 = next(m0.model, lambda0)
 			if m0.err != nil {
 				return nil, m0.err
 			}
 		}
-		lc := search(len(lambdaSteps)+1, c.searchBatch(), func(i int) candidate {
+		prev = &m0
+		lc := search(len(lambdaSteps)+1, batch, func(i int) candidate {
 			if i == 0 {
 				return m0
 			}
-			return ev.eval(m0.model, lambdaSteps[len(lambdaSteps)-i]*unit)
+			return next(m0.model, lambdaSteps[len(lambdaSteps)-i]*unit)
 		})
 		tried = append(tried, lc[1:]...) // lc[0] is the knot stage's winner
 		slices.Reverse(lc)
@@ -405,22 +434,32 @@ func (ev *evaluator) taus() []float64 {
 	return ts
 }
 
-func (ev *evaluator) eval(m *model, lambda float64) candidate {
+// eval scores model m at lambda; prev, when not nil, is the candidate
+// evaluated before, whose fits start m's under the Schwarz criterion.
+func (ev *evaluator) eval(m *model, lambda float64, prev *candidate) candidate {
 	var cd candidate
 	if ev.criterion == CriterionCV {
 		cd = ev.cv(m, lambda)
 	} else {
-		cd = ev.sic(m, lambda)
+		cd = ev.sic(m, lambda, prev)
 	}
 	cd.model, cd.lambda = m, lambda
 	return cd
 }
 
-// sic scores a candidate by the summed SIC over the selection taus.
-func (ev *evaluator) sic(m *model, lambda float64) candidate {
+// sic scores a candidate by the summed SIC over the selection taus, its
+// fits started from prev's when prev is not nil (startsFrom).
+func (ev *evaluator) sic(m *model, lambda float64, prev *candidate) candidate {
 	r := ev.r
 	total, neff := r.weight()
-	sols, err := fitEach(ev.pl, m.x, r.y, r.w, m.pen, lambda, ev.taus())
+	taus := ev.taus()
+	var sols []*solver.Solution
+	var err error
+	if prev == nil {
+		sols, err = fitEach(ev.pl, m.x, r.y, r.w, m.pen, lambda, taus)
+	} else {
+		sols, err = fitStarted(ev.pl, m.x, r.y, r.w, m.pen, lambda, taus, startsFrom(prev, m, taus))
+	}
 	if err != nil {
 		return candidate{err: err}
 	}
@@ -438,7 +477,7 @@ func (ev *evaluator) sic(m *model, lambda float64) candidate {
 		}
 		score += math.Log(max(loss/total, math.SmallestNonzeroFloat64)) + math.Log(neff)/(2*neff)*float64(edf)
 	}
-	return candidate{score: score, edf: medianEDF, median: sols[0]}
+	return candidate{score: score, edf: medianEDF, median: sols[0], taus: taus, sols: sols}
 }
 
 // interpolated returns the number of data rows a solution interpolates: the
@@ -544,4 +583,109 @@ func fitEach(pl *pool, x *solver.Design, y, w []float64, pen *solver.Design, lam
 		p.Lambda, p.Penalty = lambda, pen
 	}
 	return pl.grid(p, taus, nil)
+}
+
+// fitStarted solves the unconstrained fits at taus, each started from
+// starts[k] (nil: cold), in parallel under the pool's tokens, and returns
+// them in the order of taus.
+func fitStarted(pl *pool, x *solver.Design, y, w []float64, pen *solver.Design, lambda float64, taus []float64, starts []*solver.Solution) ([]*solver.Solution, error) {
+	out := make([]*solver.Solution, len(taus))
+	err := parallel(len(taus), func(k int) error {
+		p := &solver.Problem{Y: y, X: x, W: w, Tau: taus[k]}
+		if lambda > 0 && pen != nil {
+			p.Lambda, p.Penalty = lambda, pen
+		}
+		var err error
+		out[k], err = pl.solve(p, &solver.Settings{Start: starts[k]})
+		if err != nil {
+			return fmt.Errorf("tau %g: %w", taus[k], err)
+		}
+		return nil
+	})
+	return out, err
+}
+
+// startsFrom returns a start for each of taus of model m's fits from the
+// candidate prev evaluated before it, nil where prev has no fit at that
+// tau. With the same model (another lambda) a start is prev's own answer,
+// whose vertex is feasible for m's problem too. With another knot vector it
+// is prev's fitted curve at the tau projected on m's basis by least squares
+// over the rows: coefficients only, close enough to the answer that the
+// solver keeps a narrow band of rows around them (solver.Settings.Start)
+// instead of fitting a subsample first. When the projection cannot be
+// computed every start is nil. The starts change the work, not the answer:
+// measured on 1,000,000 simulated rows in two strata, Build took 6.1 to
+// 6.6 s instead of 7.5 s and returned the same reference byte for byte.
+func startsFrom(prev *candidate, m *model, taus []float64) []*solver.Solution {
+	starts := make([]*solver.Solution, len(taus))
+	at := make([]int, len(taus)) // index in prev.sols, or -1
+	var coefs [][]float64
+	for k, tau := range taus {
+		at[k] = slices.Index(prev.taus, tau)
+		if at[k] >= 0 {
+			coefs = append(coefs, prev.sols[at[k]].Coef)
+		}
+	}
+	if prev.model == m {
+		for k := range taus {
+			if at[k] >= 0 {
+				starts[k] = prev.sols[at[k]]
+			}
+		}
+		return starts
+	}
+	proj := project(prev.model.x, coefs, m.x)
+	if proj == nil {
+		return starts
+	}
+	j := 0
+	for k := range taus {
+		if at[k] >= 0 {
+			starts[k] = &solver.Solution{Coef: proj[j]}
+			j++
+		}
+	}
+	return starts
+}
+
+// project returns, for each coefficient vector b of design from, the
+// coefficients on design to whose fitted values are the least-squares fit
+// of from's (X_to'X_to c = X_to'X_from b over the data rows, which both
+// designs share); nil when X_to'X_to is singular.
+func project(from *solver.Design, coefs [][]float64, to *solver.Design) [][]float64 {
+	n, p, w := len(to.First), to.Cols, to.Width
+	a := make([]float64, p*p)
+	rhs := make([][]float64, len(coefs))
+	for t := range rhs {
+		rhs[t] = make([]float64, p)
+	}
+	for i := range n {
+		f := to.First[i]
+		row := to.Val[i*w : (i+1)*w]
+		for j, v := range row {
+			for k := j; k < w; k++ {
+				a[(f+j)*p+f+k] += v * row[k]
+			}
+		}
+		for t, b := range coefs {
+			fit := from.Dot(i, b)
+			for j, v := range row {
+				rhs[t][f+j] += v * fit
+			}
+		}
+	}
+	sym := mat.NewSymDense(p, a) // reads the upper triangle
+	var ch mat.Cholesky
+	if !ch.Factorize(sym) {
+		return nil
+	}
+	out := make([][]float64, len(coefs))
+	for t := range coefs {
+		var c mat.VecDense
+		if err := ch.SolveVecTo(&c, mat.NewVecDense(p, rhs[t])); err != nil {
+			return nil
+		}
+		out[t] = c.RawVector().Data
+	}
+	return out
 }

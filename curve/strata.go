@@ -25,6 +25,13 @@ func (pl *pool) grid(p *solver.Problem, taus []float64, s *solver.Settings) ([]*
 	return solver.SolveGrid(p, taus, s)
 }
 
+// solve runs solver.Solve under a token.
+func (pl *pool) solve(p *solver.Problem, s *solver.Settings) (*solver.Solution, error) {
+	pl.tokens <- struct{}{}
+	defer func() { <-pl.tokens }()
+	return solver.Solve(p, s)
+}
+
 // parallel runs f(0), ..., f(n-1) concurrently and returns the error of the
 // lowest index that failed, so the reported error does not depend on
 // scheduling.
@@ -92,9 +99,10 @@ func fitStrata(groups []*rows, c *config) ([]Stratum, error) {
 // on a sample of SelectRows rows, one drawn at random from each of
 // SelectRows equal blocks of the age-sorted rows (so the sample covers the
 // ages as the stratum does); the curves are then fitted on every row. The
-// choice costs about seven solves per candidate, each with cold starts
-// between distant taus, while the final grid costs about one pass over the
-// data per tau, so beyond this size the choice would dominate. The
+// choice costs about seven solves per candidate (each started from the
+// candidate before, see startsFrom, but still several passes over the
+// rows), while the final grid costs about one pass over the data per tau,
+// so beyond this size the choice would dominate. The
 // criterion's choice depends on n (its penalty is log(n)/2n per
 // interpolated row): on the simulation of recovery_test.go in two strata of
 // 500,000 rows it picks 4 and 5 interior knots on all rows and on samples of

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -335,5 +336,43 @@ func TestWarmStartGrowth(t *testing.T) {
 	// Same LP, so the same optimal objective (exact identity).
 	if !testRelClose(warm.Objective, cold.Objective, identObjTol) {
 		t.Errorf("warm objective %.15g, cold %.15g", warm.Objective, cold.Objective)
+	}
+}
+
+// TestGuessStart starts 30,000 growth-like rows (above PreprocessRows, so
+// the reduction runs) from coefficients alone, as a fit of another knot
+// vector projected on this one does: a guess near the answer, one far from
+// it (all zero: every row on one side, so a cold start is taken) and one of
+// the wrong length (ignored). Every answer is certified and has the cold
+// start's objective; the near guess, which spares the subsample's interior
+// point, takes fewer iterations.
+func TestGuessStart(t *testing.T) {
+	p := testGrowthProblem(30000)
+	for _, tau := range []float64{0.5, 0.9} {
+		pr := *p
+		pr.Tau = tau
+		cold, err := testSolve(&pr, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		near := slices.Clone(cold.Coef)
+		for j := range near {
+			near[j] *= 1 + 0.002*float64(j%3-1)
+		}
+		guesses := map[string][]float64{"near": near, "far": make([]float64, len(near)), "short": near[1:]}
+		for name, g := range guesses {
+			s, err := testSolve(&pr, &Settings{Start: &Solution{Coef: g}})
+			if err != nil {
+				t.Fatalf("tau %v, %s guess: %v", tau, name, err)
+			}
+			checkCertificate(t, &pr, s, dataCertTol)
+			if !testRelClose(s.Objective, cold.Objective, identObjTol) {
+				t.Errorf("tau %v, %s guess: objective %.15g, cold %.15g", tau, name, s.Objective, cold.Objective)
+			}
+			if name == "near" && s.Iterations >= cold.Iterations {
+				t.Errorf("tau %v: near guess took %d iterations, cold %d", tau, s.Iterations, cold.Iterations)
+			}
+			t.Logf("tau %v, %s guess: %d iterations (cold %d), %d repairs", tau, name, s.Iterations, cold.Iterations, s.Reductions)
+		}
 	}
 }

@@ -108,6 +108,11 @@ type Settings struct {
 	// Start is a solution of a neighbouring problem on the same rows (another
 	// tau, or other constraint bounds). Its residual signs reduce the problem
 	// and its basis starts the simplex method; the answer is still verified.
+	// A Start with Coef only (no Basis) is a guess of the answer, for
+	// example another design's fit projected on this one: above
+	// PreprocessRows rows it places the band of rows the reduction keeps,
+	// in place of a subsample's fit, when the share of rows below it is
+	// near tau; otherwise, and at or below PreprocessRows, it is ignored.
 	Start *Solution
 	// Ordered, for SolveGrid, constrains each tau's coefficients by those
 	// of the tau before it on the walk outward from the tau nearest 0.5:

@@ -94,18 +94,18 @@ func solveOn(t *table, pr *Problem, s *Settings, start *Solution, cr *carry) (*S
 		// A neighbour far away in tau (a coarse grid) leaves a band as wide
 		// as the shift between the two; a cold start is cheaper then.
 		guess := cr.guess
-		if guess == nil && basis != nil {
+		if guess == nil && start != nil && len(start.Coef) == t.p() {
 			guess = start.Coef
 		}
-		if basis != nil && !nearStart(t, n, pr.Tau, guess) {
+		coefOnly := start != nil && len(start.Basis) == 0 && len(start.Coef) == t.p()
+		warm := guess != nil && (basis != nil || coefOnly) && nearStart(t, n, pr.Tau, guess)
+		if !warm {
 			basis = nil
-		}
-		if basis == nil {
 			cr.guess, cr.ready = nil, nil
 		} else {
 			m = warmMiddle(n, t.p())
 			if cr.guess == nil {
-				cr.guess = start.Coef
+				cr.guess = guess
 			}
 		}
 		a, err := solveReduced(t, n, pr.Tau, cr, basis, m, method, s.MaxIter)
